@@ -1,0 +1,295 @@
+"""The problem description: vehicle, planet, models, launch, limits, target, objective, mesh.
+
+All quantities are SI (kg, m, s, N, Pa, rad); accelerations given in g0 are plain
+multiples of :data:`ascentplan.constants.G0`. The loader (:mod:`ascentplan.loader`)
+builds these objects from a problem file and validates them; code that builds them
+directly is trusted to pass sensible values.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field, replace
+from typing import Any
+
+from .constants import G0
+
+
+@dataclass(frozen=True)
+class Stage:
+    """One serial stage.
+
+    Attributes
+    ----------
+    name : str
+    propellant_mass : float
+        Usable propellant [kg].
+    dry_mass : float
+        Everything of the stage that is not propellant and is dropped at staging [kg].
+    thrust_vacuum : float
+        Vacuum thrust at full throttle [N].
+    exhaust_speed : float
+        Vacuum effective exhaust speed c = g0 Isp_vac [m s^-1].
+    nozzle_exit_area : float
+        Nozzle exit area for the back-pressure thrust loss p_ambient A_exit [m^2];
+        0 means no loss is modelled.
+    throttle_min, throttle_max : float
+        Throttle range as fractions of full mass flow; the default 1, 1 is a fixed
+        full-thrust engine.
+    max_throttle_rate : float or None
+        Largest |d throttle/dt| [s^-1], or None for no limit.
+    coast_after : float
+        Unpowered coast after this stage is dropped and before the next ignites [s].
+    structural_ratio : float or None
+        dry/(dry + propellant), when the file gives it (the dry mass follows the
+        propellant in a stage-mass split).
+    propellant_min, propellant_max : float or None
+        Bounds on the propellant mass in a stage-mass split [kg].
+    thrust_to_weight : float or None
+        Vacuum thrust over g0 times the stack mass at this stage's ignition; when given,
+        a stage-mass split scales the thrust with the stack mass.
+    """
+
+    name: str
+    propellant_mass: float
+    dry_mass: float
+    thrust_vacuum: float
+    exhaust_speed: float
+    nozzle_exit_area: float = 0.0
+    throttle_min: float = 1.0
+    throttle_max: float = 1.0
+    max_throttle_rate: float | None = None
+    coast_after: float = 0.0
+    structural_ratio: float | None = None
+    propellant_min: float | None = None
+    propellant_max: float | None = None
+    thrust_to_weight: float | None = None
+
+    @property
+    def mass(self) -> float:
+        """Propellant plus dry mass [kg]."""
+        return self.propellant_mass + self.dry_mass
+
+    @property
+    def isp_vacuum(self) -> float:
+        """Vacuum specific impulse [s]."""
+        return self.exhaust_speed / G0
+
+    @property
+    def max_mass_flow(self) -> float:
+        """Mass flow at full throttle [kg s^-1]."""
+        return self.thrust_vacuum / self.exhaust_speed
+
+    @property
+    def full_throttle_burn_time(self) -> float:
+        """Burn time at full throttle [s]."""
+        return self.propellant_mass / self.max_mass_flow
+
+
+@dataclass(frozen=True)
+class Vehicle:
+    """A payload on top of serial stages, first stage first."""
+
+    payload_mass: float
+    stages: tuple[Stage, ...]
+
+    @property
+    def liftoff_mass(self) -> float:
+        """Total mass at liftoff [kg]."""
+        return self.payload_mass + sum(s.mass for s in self.stages)
+
+    def mass_above(self, index: int) -> float:
+        """Mass carried by stage ``index``: payload plus all stages after it [kg]."""
+        return self.payload_mass + sum(s.mass for s in self.stages[index + 1:])
+
+    def ignition_mass(self, index: int) -> float:
+        """Stack mass when stage ``index`` ignites [kg]."""
+        return self.mass_above(index) + self.stages[index].mass
+
+    def burnout_mass(self, index: int) -> float:
+        """Stack mass when stage ``index`` has burnt all its propellant [kg]."""
+        return self.mass_above(index) + self.stages[index].dry_mass
+
+    def with_propellant(self, propellant: list[float], payload_mass: float | None = None):
+        """A copy with new propellant masses; dry masses follow structural ratios."""
+        stages = []
+        for s, mp in zip(self.stages, propellant):
+            dry = s.dry_mass
+            if s.structural_ratio is not None:
+                dry = s.structural_ratio / (1.0 - s.structural_ratio) * mp
+            stages.append(replace(s, propellant_mass=float(mp), dry_mass=float(dry)))
+        payload = self.payload_mass if payload_mass is None else float(payload_mass)
+        return Vehicle(payload_mass=payload, stages=tuple(stages))
+
+
+@dataclass(frozen=True)
+class Planet:
+    """A spherical, uniformly rotating planet."""
+
+    name: str
+    radius: float  # [m]
+    gravitational_parameter: float  # [m^3 s^-2]
+    rotation_rate: float = 0.0  # [rad s^-1]
+
+    @property
+    def surface_gravity(self) -> float:
+        """mu / R^2 [m s^-2]."""
+        return self.gravitational_parameter / self.radius**2
+
+
+@dataclass(frozen=True)
+class Aerodynamics:
+    """Drag of the whole stack: D = 1/2 rho C_D A_ref |v_rel|^2."""
+
+    reference_area: float  # [m^2]
+    drag: Any  # a drag model from ascentplan.aero.DRAG_MODELS
+    reference_length: float | None = None  # [m], for Reynolds number
+
+
+@dataclass(frozen=True)
+class Launch:
+    """Launch site and the opening manoeuvre.
+
+    ``pitch_over`` is the pitch angle below vertical [rad] taken at the end of the
+    vertical rise by the default schedule and the optimiser's first guess.
+    ``latitude`` only sets the planet-rotation speed of the pad, omega R cos(latitude);
+    the planar model flies due east in the plane of the launch.
+    """
+
+    altitude: float = 0.0  # [m]
+    latitude: float = 0.0  # [rad]
+    vertical_rise: float = 0.0  # [s]
+    pitch_over: float = 0.0  # [rad]
+
+
+@dataclass(frozen=True)
+class Limits:
+    """Path limits; None means not imposed."""
+
+    max_dynamic_pressure: float | None = None  # [Pa]
+    max_axial_acceleration: float | None = None  # [g0]
+    max_q_alpha: float | None = None  # [Pa rad]
+    min_altitude: float | None = None  # [m]
+
+    def active_names(self) -> list[str]:
+        return [k for k in LIMIT_UNITS if getattr(self, k) is not None]
+
+
+#: user-facing unit of each limit and the SI factor: value_user = value_SI / factor
+LIMIT_UNITS = {
+    "max_dynamic_pressure": ("kPa", 1000.0),
+    "max_axial_acceleration": ("g0", 1.0),
+    "max_q_alpha": ("kPa deg", 1000.0 * 3.141592653589793 / 180.0),
+    "min_altitude": ("km", 1000.0),
+}
+
+
+@dataclass(frozen=True)
+class Target:
+    """Terminal conditions at burnout (end of the last powered phase); None = free."""
+
+    altitude: float | None = None  # [m]
+    speed: float | None = None  # inertial speed [m s^-1]
+    flight_path_angle: float | None = None  # inertial, from local horizontal [rad]
+    circular_orbit_altitude: float | None = None  # [m]
+
+    def is_empty(self) -> bool:
+        return all(v is None for v in (self.altitude, self.speed, self.flight_path_angle,
+                                       self.circular_orbit_altitude))
+
+
+@dataclass(frozen=True)
+class MassSplit:
+    """A stage-mass split chosen by the optimiser.
+
+    ``hold`` is ``"liftoff_mass"`` (liftoff mass fixed, payload fixed, propellant moves
+    between stages) or ``"payload"`` (payload fixed, liftoff mass minimised to meet the
+    target).
+    """
+
+    hold: str = "liftoff_mass"
+    liftoff_mass: float | None = None  # [kg]; default: the vehicle's as written
+
+
+@dataclass(frozen=True)
+class Mesh:
+    """Transcription and verification settings."""
+
+    scheme: str = "hermite_simpson"
+    nodes_per_phase: int = 40
+    max_refinements: int = 3
+    speed_tolerance: float = 0.5  # [m s^-1]
+    speed_tolerance_fraction: float = 5e-4
+    limit_tolerance_fraction: float = 5e-3
+
+
+@dataclass(frozen=True)
+class TimeSchedule:
+    """A control schedule against time from liftoff, linearly interpolated.
+
+    Stages burn out on propellant depletion; pitch [rad] is ignored by the vertical model.
+    """
+
+    time: tuple[float, ...]
+    throttle: tuple[float, ...]
+    pitch: tuple[float, ...] | None = None
+
+
+@dataclass(frozen=True)
+class Problem:
+    """Everything needed to simulate or optimise one ascent."""
+
+    name: str
+    dynamics: str  # "vertical" or "planar"
+    vehicle: Vehicle
+    planet: Planet
+    atmosphere: Any  # from ascentplan.atmosphere.ATMOSPHERES
+    gravity: Any  # from ascentplan.gravity.GRAVITY_MODELS
+    aerodynamics: Aerodynamics
+    launch: Launch = field(default_factory=Launch)
+    limits: Limits = field(default_factory=Limits)
+    target: Target = field(default_factory=Target)
+    objective: str = "max_burnout_speed"
+    mesh: Mesh = field(default_factory=Mesh)
+    mass_split: MassSplit | None = None
+    schedule: TimeSchedule | None = None
+    description: str = ""
+    source_path: str | None = None
+
+    def with_limits(self, **changes) -> "Problem":
+        return replace(self, limits=replace(self.limits, **changes))
+
+
+@dataclass(frozen=True)
+class Phase:
+    """One segment of the flight with smooth dynamics.
+
+    kind is ``"rise"`` (vertical rise of stage 0, fixed duration, pitch 90 deg),
+    ``"burn"`` (stage ``stage`` powered), or ``"coast"`` (no thrust; ``stage`` is the
+    index of the last stage dropped, or the last stage for a final coast).
+    ``duration`` is fixed when not None. ``ends_at_apogee`` marks a final coast that
+    ends where the radial speed is zero.
+    """
+
+    kind: str
+    stage: int
+    duration: float | None = None
+    ends_at_apogee: bool = False
+
+    @property
+    def powered(self) -> bool:
+        return self.kind in ("rise", "burn")
+
+
+def phase_plan(problem: Problem) -> list[Phase]:
+    """The sequence of phases that both the simulator and the optimiser fly."""
+    phases: list[Phase] = []
+    stages = problem.vehicle.stages
+    for i, stage in enumerate(stages):
+        if i == 0 and problem.launch.vertical_rise > 0:
+            phases.append(Phase("rise", 0, duration=problem.launch.vertical_rise))
+        phases.append(Phase("burn", i))
+        if stage.coast_after > 0 and i < len(stages) - 1:
+            phases.append(Phase("coast", i, duration=stage.coast_after))
+    if problem.objective == "max_apogee":
+        phases.append(Phase("coast", len(stages) - 1, ends_at_apogee=True))
+    return phases
