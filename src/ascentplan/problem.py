@@ -293,3 +293,19 @@ def phase_plan(problem: Problem) -> list[Phase]:
     if problem.objective == "max_apogee":
         phases.append(Phase("coast", len(stages) - 1, ends_at_apogee=True))
     return phases
+
+
+#: objectives by the name used in problem files (the optimiser implements each)
+OBJECTIVES = {
+    "max_burnout_speed": "maximise inertial speed at burnout of the last stage",
+    "max_burnout_altitude": "maximise altitude at burnout of the last stage",
+    "max_apogee": "maximise the apogee altitude reached by coasting after burnout",
+    "max_payload": "maximise payload mass delivered to the target",
+    "min_propellant": "minimise propellant used to reach the target",
+}
+
+#: collocation schemes by the name used in problem files
+SCHEMES = {
+    "hermite_simpson": "Hermite-Simpson (separated), order 4 in the states",
+    "trapezoidal": "trapezoidal rule, order 2",
+}
