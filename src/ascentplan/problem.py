@@ -302,6 +302,7 @@ OBJECTIVES = {
     "max_apogee": "maximise the apogee altitude reached by coasting after burnout",
     "max_payload": "maximise payload mass delivered to the target",
     "min_propellant": "minimise propellant used to reach the target",
+    "min_liftoff_mass": "minimise liftoff mass that reaches the target (stage-mass split, payload held)",
 }
 
 #: collocation schemes by the name used in problem files

@@ -1,0 +1,106 @@
+"""First guesses and variable scales for the collocation NLP, from a forward simulation."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .optimize import Guess, nodes_for_phase
+from .problem import Problem, phase_plan
+
+
+def _phase_samples(trajectory, j):
+    mask = np.asarray(trajectory.phase) == j
+    return np.asarray(trajectory.time)[mask], np.asarray(trajectory.state)[:, mask], \
+        np.asarray(trajectory.controls)[:, mask]
+
+
+def guess_from_trajectory(problem: Problem, trajectory, nodes_per_phase: int) -> Guess:
+    """Sample a simulated trajectory on the mesh of each phase of ``problem``.
+
+    Phases the simulation did not reach (an impact, say) are filled with the last state
+    and the stage's full-throttle burn time, so the guess is always complete.
+    """
+    phases = phase_plan(problem)
+    stages = problem.vehicle.stages
+    durations, states, controls = [], [], []
+    last_state = np.asarray(trajectory.state)[:, -1]
+    n_u = 1 if problem.dynamics == "vertical" else 2
+    for j, ph in enumerate(phases):
+        N = nodes_for_phase(ph, nodes_per_phase)
+        t, x, u = _phase_samples(trajectory, j)
+        if t.size >= 2 and t[-1] > t[0]:
+            d = float(t[-1] - t[0])
+            tn = t[0] + d * np.linspace(0.0, 1.0, N)
+            X = np.vstack([np.interp(tn, t, row) for row in x])
+            Uc = np.vstack([np.interp(tn, t, row) for row in u[:n_u]])
+            last_state = X[:, -1]
+        else:
+            d = ph.duration if ph.duration is not None else stages[ph.stage].full_throttle_burn_time
+            X = np.repeat(last_state[:, None], N, axis=1)
+            Uc = np.zeros((n_u, N))
+            Uc[0] = stages[ph.stage].throttle_max if ph.powered else 0.0
+        if ph.duration is not None:
+            d = ph.duration
+        if not ph.powered:
+            Uc[:] = 0.0
+        elif n_u == 2:
+            if ph.kind == "rise":
+                Uc[1] = 0.5 * np.pi
+            Uc[1] = np.clip(Uc[1], -0.5 * np.pi, 0.5 * np.pi)
+        Uc[0] = np.clip(Uc[0], stages[ph.stage].throttle_min if ph.powered else 0.0,
+                        stages[ph.stage].throttle_max if ph.powered else 0.0)
+        durations.append(d)
+        states.append(X)
+        controls.append(Uc)
+    return Guess(durations=durations, states=states, controls=controls,
+                 payload_mass=problem.vehicle.payload_mass,
+                 propellant=[s.propellant_mass for s in stages])
+
+
+def guess_from_solution(problem: Problem, solution, nodes_per_phase: int) -> Guess:
+    """Interpolate a previous NLP solution onto a (finer or coarser) mesh: a warm start."""
+    phases = phase_plan(problem)
+    durations, states, controls = [], [], []
+    for j, ph in enumerate(phases):
+        N = nodes_for_phase(ph, nodes_per_phase)
+        tau_old = np.linspace(0.0, 1.0, solution.states[j].shape[1])
+        tau = np.linspace(0.0, 1.0, N)
+        states.append(np.vstack([np.interp(tau, tau_old, r) for r in solution.states[j]]))
+        controls.append(np.vstack([np.interp(tau, tau_old, r) for r in solution.controls[j]]))
+        durations.append(solution.durations[j])
+    multipliers = None
+    if all(solution.states[j].shape[1] == nodes_for_phase(ph, nodes_per_phase)
+           for j, ph in enumerate(phases)):
+        multipliers = solution.multipliers
+    return Guess(durations=durations, states=states, controls=controls,
+                 payload_mass=solution.payload_mass, propellant=list(solution.propellant),
+                 multipliers=multipliers)
+
+
+def scales_for(problem: Problem, guess: Guess) -> dict:
+    """Offsets and scales that bring every NLP variable to order one."""
+    planet = problem.planet
+    target = problem.target
+    allx = np.hstack(guess.states)
+    if problem.dynamics == "vertical":
+        h = np.abs(allx[0])
+        h_ref = max(1e3, float(h.max()), target.altitude or 0.0)
+        v_ref = max(50.0, float(np.abs(allx[1]).max()), target.speed or 0.0)
+        offset = [0.0, 0.0, 0.0]
+        scale = [h_ref, v_ref, problem.vehicle.liftoff_mass]
+    else:
+        h = allx[0] - planet.radius
+        alt_target = target.circular_orbit_altitude or target.altitude or 0.0
+        h_ref = max(1e3, float(np.abs(h).max()), alt_target)
+        speed = np.hypot(allx[2], allx[3])
+        v_orbit = 0.0
+        if target.circular_orbit_altitude is not None:
+            v_orbit = np.sqrt(planet.gravitational_parameter /
+                              (planet.radius + target.circular_orbit_altitude))
+        v_ref = max(100.0, float(speed.max()), target.speed or 0.0, v_orbit)
+        theta_ref = max(1e-3, float(np.abs(allx[1]).max()))
+        offset = [planet.radius, 0.0, 0.0, 0.0, 0.0]
+        scale = [h_ref, theta_ref, v_ref, v_ref, problem.vehicle.liftoff_mass]
+    durations = [max(1e-3, float(d)) for d in guess.durations]
+    return {"x_offset": offset, "x_scale": scale, "durations": durations,
+            "mass": problem.vehicle.liftoff_mass}
