@@ -113,7 +113,8 @@ class AscentNLP:
     problem of the same :func:`structure_key` (other limit values or masses).
     """
 
-    def __init__(self, problem: Problem, scales: dict, nodes_per_phase: int | None = None):
+    def __init__(self, problem: Problem, scales: dict, nodes_per_phase: int | None = None,
+                 symbolic: str = "SX"):
         t0 = _time.perf_counter()
         self.problem = problem
         self.kind = problem.dynamics
@@ -127,6 +128,7 @@ class AscentNLP:
         self.n_u = self.model.n_controls
         self.n_stages = len(problem.vehicle.stages)
         self._scales = scales
+        self._sym = ca.MX if symbolic == "MX" else ca.SX
         self._build()
         self.build_time = _time.perf_counter() - t0
 
@@ -145,7 +147,7 @@ class AscentNLP:
         self._index = {}
 
         def add(name, shape, lb, ub):
-            sym = ca.SX.sym(name, *shape)
+            sym = self._sym.sym(name, *shape)
             start = sum(int(np.prod(s.shape)) for s in w_parts)
             w_parts.append(sym)
             n = int(np.prod(shape))
@@ -158,7 +160,7 @@ class AscentNLP:
 
         # parameters: limit bounds, then masses, then the held liftoff mass
         n_lim = len(self.limit_names)
-        P = ca.SX.sym("p", n_lim + 1 + 2 * self.n_stages + 1)
+        P = self._sym.sym("p", n_lim + 1 + 2 * self.n_stages + 1)
         self.n_params = P.shape[0]
         lim_par = {name: P[i] for i, name in enumerate(self.limit_names)}
         payload_par = P[n_lim]
@@ -200,7 +202,7 @@ class AscentNLP:
             if split and s.thrust_to_weight is not None:
                 thrust.append(s.thrust_to_weight * G0 * ignition[i])
             else:
-                thrust.append(ca.SX(s.thrust_vacuum))
+                thrust.append(float(s.thrust_vacuum))
         self._mass_exprs = dict(payload=payload, propellant=propellant, dry=dry,
                                 ignition=ignition, thrust=thrust)
 

@@ -1,0 +1,321 @@
+"""The one orchestrator: load, guess, transcribe, solve, verify, refine, report.
+
+``solve(problem)`` returns a :class:`Result`; failure is a status in it, never an
+exception (exceptions are kept for bad input).
+"""
+
+from __future__ import annotations
+
+import time as _time
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+
+from .cautions import CAUTION
+from .dynamics import altitude_speed_fpa
+from .guess import guess_from_solution, guess_from_trajectory, scales_for
+from .optimize import AscentNLP, NLPSolution, structure_key
+from .problem import LIMIT_UNITS, Problem, phase_plan
+from .verify import Verification, verify
+
+#: objective units shown to the user: name -> (unit, SI-to-unit divisor)
+OBJECTIVE_UNITS = {
+    "max_burnout_speed": ("m/s", 1.0),
+    "max_burnout_altitude": ("km", 1000.0),
+    "max_apogee": ("km", 1000.0),
+    "max_payload": ("kg", 1.0),
+    "min_propellant": ("kg", 1.0),
+    "min_liftoff_mass": ("kg", 1.0),
+}
+
+_NLP_CACHE: dict = {}
+_CACHE_SIZE = 8
+
+
+def _cached_nlp(problem: Problem, scales: dict, nodes: int) -> tuple[AscentNLP, bool]:
+    key = (structure_key(problem), nodes)
+    nlp = _NLP_CACHE.get(key)
+    if nlp is not None:
+        return nlp, True
+    nlp = AscentNLP(problem, scales, nodes_per_phase=nodes)
+    if len(_NLP_CACHE) >= _CACHE_SIZE:
+        _NLP_CACHE.pop(next(iter(_NLP_CACHE)))
+    _NLP_CACHE[key] = nlp
+    return nlp, False
+
+
+def clear_cache() -> None:
+    """Forget every built NLP (they are rebuilt on demand)."""
+    _NLP_CACHE.clear()
+
+
+@dataclass
+class Result:
+    """Everything a solve produced; ``summary()`` is the content of summary.json."""
+
+    problem: Problem
+    status: str  # optimal | not_verified | infeasible | failed
+    message: str
+    solution: NLPSolution
+    verification: Verification
+    trajectory: object  # the replay (ascentplan.simulate.Trajectory)
+    schedule: object  # ascentplan.simulate.PhaseSchedule
+    solved_problem: Problem  # the problem with the optimised masses
+    iterations: int
+    wall_time: float
+    nodes: int
+    mesh_refinements: int
+    extra: dict = field(default_factory=dict)
+
+    @property
+    def objective_value(self) -> float:
+        """Objective in SI units, from the optimiser."""
+        return self.solution.objective
+
+    def burnout(self) -> dict:
+        traj = self.trajectory
+        xb = np.asarray(traj.burnout_state())
+        h, v, fpa = altitude_speed_fpa(xb, self.problem.dynamics, self.problem.planet)
+        last = max(j for j, ph in enumerate(phase_plan(self.problem)) if ph.powered)
+        t_b = float(np.sum(self.solution.durations[: last + 1]))
+        return {"time_s": t_b, "altitude_m": float(h), "speed_m_s": float(v),
+                "flight_path_angle_deg": float(np.degrees(fpa)), "mass_kg": float(xb[-1])}
+
+    def limits(self) -> list[dict]:
+        obj_unit, obj_div = OBJECTIVE_UNITS[self.problem.objective]
+        out = []
+        for c in self.verification.limits:
+            unit, factor = LIMIT_UNITS[c.name]
+            price_si = self.solution.shadow_prices.get(c.name, 0.0)
+            active = c.name in self.solution.binding
+            price = price_si * factor / obj_div if active else 0.0
+            out.append({
+                "name": c.name, "bound": c.bound / factor, "unit": unit,
+                "peak": c.peak / factor, "peak_time_s": c.time, "active": bool(active),
+                "shadow_price": float(price),
+                "shadow_price_unit": f"{obj_unit} per {unit}",
+            })
+        return out
+
+    def stages(self) -> list[dict]:
+        phases = phase_plan(self.problem)
+        out = []
+        for i, s in enumerate(self.solved_problem.vehicle.stages):
+            burn = sum(d for d, ph in zip(self.solution.durations, phases)
+                       if ph.powered and ph.stage == i)
+            out.append({"name": s.name, "propellant_mass_kg": float(s.propellant_mass),
+                        "dry_mass_kg": float(s.dry_mass), "burn_time_s": float(burn),
+                        "thrust_vacuum_N": float(s.thrust_vacuum)})
+        return out
+
+    def summary(self) -> dict:
+        """The summary.json content (keys documented in the README)."""
+        unit, div = OBJECTIVE_UNITS[self.problem.objective]
+        v = self.verification
+        d = {
+            "problem": self.problem.name,
+            "status": self.status,
+            "message": self.message,
+            "objective": {"name": self.problem.objective, "value": self.objective_value / div,
+                          "unit": unit, "replayed_value": v.objective_replayed / div},
+            "burnout": self.burnout(),
+            "limits": self.limits(),
+            "verification": {
+                "passed": bool(v.passed),
+                "burnout_speed_difference_m_s": v.burnout_speed_difference_m_s,
+                "burnout_altitude_difference_m": v.burnout_altitude_difference_m,
+                "worst_limit_excess_fraction": v.worst_limit_excess_fraction,
+                "reasons": list(v.reasons),
+            },
+            "stages": self.stages(),
+            "payload_mass_kg": float(self.solved_problem.vehicle.payload_mass),
+            "liftoff_mass_kg": float(self.solved_problem.vehicle.liftoff_mass),
+            "solver": {"iterations": self.iterations, "wall_time_s": self.wall_time,
+                       "nodes": self.nodes, "mesh_refinements": self.mesh_refinements,
+                       "scheme": self.problem.mesh.scheme,
+                       "return_status": self.solution.return_status},
+            "losses_m_s": {k: float(val) for k, val in getattr(self.trajectory, "losses",
+                                                               {}).items()},
+            "caution": CAUTION,
+        }
+        d.update(self.extra)
+        return d
+
+
+def _replay(problem: Problem, solution: NLPSolution):
+    from .simulate import PhaseControls, PhaseSchedule, simulate
+
+    phases = phase_plan(problem)
+    entries = []
+    for j, ph in enumerate(phases):
+        U = solution.controls[j]
+        rel = solution.times[j] - solution.times[j][0]
+        pitch = U[1] if U.shape[0] > 1 else None
+        entries.append(PhaseControls(duration=float(solution.durations[j]), time=rel,
+                                     throttle=U[0].copy(),
+                                     pitch=None if pitch is None else pitch.copy()))
+    schedule = PhaseSchedule(tuple(entries))
+    trajectory = simulate(problem, schedule, coast_to_apogee=False)
+    return schedule, trajectory
+
+
+def _with_solution_masses(problem: Problem, solution: NLPSolution) -> Problem:
+    if problem.mass_split is None and problem.objective != "max_payload":
+        return problem
+    veh = problem.vehicle
+    stages = tuple(replace(s, propellant_mass=float(mp), dry_mass=float(md))
+                   for s, mp, md in zip(veh.stages, solution.propellant, solution.dry))
+    new_vehicle = replace(veh, payload_mass=float(solution.payload_mass), stages=stages)
+    if problem.mass_split is not None:
+        # thrust scaled with stack mass where the file gives a thrust-to-weight ratio
+        fixed = []
+        for i, s in enumerate(new_vehicle.stages):
+            if s.thrust_to_weight is not None:
+                from .constants import G0
+                s = replace(s, thrust_vacuum=s.thrust_to_weight * G0 *
+                            new_vehicle.ignition_mass(i))
+            fixed.append(s)
+        new_vehicle = replace(new_vehicle, stages=tuple(fixed))
+    return replace(problem, vehicle=new_vehicle)
+
+
+def first_guess(problem: Problem, nodes: int):
+    """A guess and scales from a forward simulation of the default schedule."""
+    from .simulate import simulate
+
+    traj = simulate(problem, None, coast_to_apogee=problem.objective == "max_apogee")
+    guess = guess_from_trajectory(problem, traj, nodes)
+    return guess, scales_for(problem, guess)
+
+
+def solve(problem: Problem, *, warm_start: Result | None = None,
+          max_refinements: int | None = None) -> Result:
+    """Optimise the schedule (and masses, if asked), verify by replay, refine the mesh.
+
+    Parameters
+    ----------
+    problem : Problem
+    warm_start : Result, optional
+        A previous result of a problem of the same structure (other limit values or
+        masses): its solution is the first guess and its multipliers warm-start IPOPT.
+    max_refinements : int, optional
+        Overrides ``problem.mesh.max_refinements``.
+    """
+    t_start = _time.perf_counter()
+    nodes = problem.mesh.nodes_per_phase
+    budget = problem.mesh.max_refinements if max_refinements is None else max_refinements
+    if warm_start is not None:
+        nodes = warm_start.nodes
+        guess = guess_from_solution(problem, warm_start.solution, nodes)
+        scales = warm_start.extra.get("_scales") if "_scales" in warm_start.extra else None
+        if scales is None:
+            _, scales = first_guess(problem, nodes)
+    else:
+        guess, scales = first_guess(problem, nodes)
+    iterations = 0
+    refinements = 0
+    while True:
+        nlp, _ = _cached_nlp(problem, scales, nodes)
+        solution = nlp.solve(problem, guess, warm=guess.multipliers is not None)
+        iterations += solution.iterations
+        solved_problem = _with_solution_masses(problem, solution)
+        schedule, trajectory = _replay(solved_problem, solution)
+        verification = verify(solved_problem, solution, trajectory)
+        if solution.status != "optimal" or verification.passed or refinements >= budget:
+            break
+        refinements += 1
+        nodes = 2 * nodes - 1
+        guess = guess_from_solution(problem, solution, nodes)
+    status, message = _status_and_message(solution, verification, refinements, nodes)
+    result = Result(problem=problem, status=status, message=message, solution=solution,
+                    verification=verification, trajectory=trajectory, schedule=schedule,
+                    solved_problem=solved_problem, iterations=iterations,
+                    wall_time=_time.perf_counter() - t_start, nodes=nodes,
+                    mesh_refinements=refinements)
+    return result
+
+
+def _status_and_message(solution: NLPSolution, verification: Verification, refinements: int,
+                        nodes: int) -> tuple[str, str]:
+    if solution.status == "infeasible":
+        names = ", ".join(solution.binding) or "none of the path limits"
+        return "infeasible", (
+            f"the solver found no schedule that meets every constraint "
+            f"(IPOPT: {solution.return_status}, constraint violation "
+            f"{solution.constraint_violation:.3g}); binding where it stopped: {names}")
+    if solution.status != "optimal":
+        return "failed", (f"the solver did not converge (IPOPT: {solution.return_status}, "
+                          f"{solution.iterations} iterations)")
+    if not verification.passed:
+        return "not_verified", ("optimal on the mesh but the replay disagrees after "
+                                f"{refinements} mesh refinement(s), {nodes} nodes per phase: "
+                                + "; ".join(verification.reasons))
+    return "optimal", (f"optimal and verified by replay ({nodes} nodes per phase, "
+                       f"{refinements} mesh refinement(s))")
+
+
+def format_result(result: Result) -> str:
+    """A short readable summary of a solve, ending with the caution."""
+    s = result.summary()
+    b = s["burnout"]
+    o = s["objective"]
+    v = s["verification"]
+    lines = [
+        f"ascentplan solve: {s['problem']}",
+        f"  status        {s['status']}: {s['message']}",
+        f"  objective     {o['name']} = {o['value']:.6g} {o['unit']}"
+        f" (replay {o['replayed_value']:.6g} {o['unit']})",
+        f"  burnout       t {b['time_s']:.2f} s, altitude {b['altitude_m'] / 1000:.3f} km, "
+        f"speed {b['speed_m_s']:.2f} m/s, flight-path angle {b['flight_path_angle_deg']:.3f} deg,"
+        f" mass {b['mass_kg']:.1f} kg",
+        f"  verification  {'passed' if v['passed'] else 'FAILED'}: burnout speed "
+        f"{v['burnout_speed_difference_m_s']:+.3f} m/s, altitude "
+        f"{v['burnout_altitude_difference_m']:+.2f} m, worst limit excess "
+        f"{100 * v['worst_limit_excess_fraction']:+.3f} %",
+    ]
+    if s["limits"]:
+        lines.append("  limits        name                      bound        peak   active"
+                     "  shadow price")
+        for lim in s["limits"]:
+            price = (f"{lim['shadow_price']:.4g} {lim['shadow_price_unit']}" if lim["active"]
+                     else "0 (inactive)")
+            lines.append(f"                {lim['name']:<24}{lim['bound']:>8.4g} {lim['unit']:<7}"
+                         f"{lim['peak']:>9.4g}   {'yes' if lim['active'] else 'no ':<5} {price}")
+    lines.append("  stages        name            propellant [kg]   dry [kg]   burn [s]")
+    for st in s["stages"]:
+        lines.append(f"                {st['name']:<16}{st['propellant_mass_kg']:>15.1f}"
+                     f"{st['dry_mass_kg']:>11.1f}{st['burn_time_s']:>11.2f}")
+    if s.get("losses_m_s"):
+        lo = s["losses_m_s"]
+        lines.append("  losses [m/s]  " + ", ".join(f"{k} {val:.1f}" for k, val in lo.items()))
+    sv = s["solver"]
+    lines.append(f"  solver        {sv['iterations']} iterations, {sv['wall_time_s']:.2f} s, "
+                 f"{sv['nodes']} nodes per phase, {sv['mesh_refinements']} refinement(s)")
+    lines.append(CAUTION)
+    return "\n".join(lines)
+
+
+def write_outputs(result: Result, out_dir) -> list:
+    """Write summary.json, trajectory.csv, schedule.csv, the plots and report.html."""
+    from pathlib import Path
+
+    from .outputs import write_json, write_schedule_csv, write_trajectory_csv
+
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    written = []
+    write_json(result.summary(), out / "summary.json")
+    written.append(out / "summary.json")
+    write_trajectory_csv(result.trajectory, out / "trajectory.csv")
+    written.append(out / "trajectory.csv")
+    write_schedule_csv(result.schedule, out / "schedule.csv", phase_plan(result.problem))
+    written.append(out / "schedule.csv")
+    try:
+        from .plots import plot_result
+        from .report import write_report
+    except ImportError:  # plotting back-end missing: the numbers are still written
+        return written
+    pngs = plot_result(result, out)
+    written += list(pngs)
+    written.append(write_report(result, out, plots=pngs))
+    return written
