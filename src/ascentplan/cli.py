@@ -1,0 +1,135 @@
+"""The ``ascentplan`` command line: one small handler per verb over the Python API."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+
+import yaml
+
+from . import __version__
+from .loader import ProblemError, load_problem
+
+#: exit status for a bad problem file or bad usage (argparse uses 2 for usage too)
+EXIT_BAD_INPUT = 2
+
+
+def _report(error: ProblemError, fallback_source: str) -> None:
+    source = error.source or fallback_source
+    for message in error.messages:
+        print(f"{source}: {message}", file=sys.stderr)
+
+
+def _cmd_check(args) -> int:
+    from .summary import vehicle_summary
+
+    status = 0
+    for i, path in enumerate(args.files):
+        try:
+            problem = load_problem(path)
+        except ProblemError as exc:
+            _report(exc, path)
+            status = EXIT_BAD_INPUT
+            continue
+        if i:
+            print()
+        print(vehicle_summary(problem), end="")
+    return status
+
+
+def _cmd_simulate(args) -> int:
+    problem = load_problem(args.file)
+    try:
+        # the simulator is imported only here so that ``check`` never depends on it
+        from .simulate import simulate_command
+    except ModuleNotFoundError as exc:
+        if exc.name != f"{__package__}.simulate":
+            raise
+        print("ascentplan simulate: the forward simulator is not installed with this "
+              "version", file=sys.stderr)
+        return 1
+    out = Path(args.out) if args.out is not None else Path("results") / problem.name
+    schedule = Path(args.schedule) if args.schedule is not None else None
+    status = simulate_command(problem, out=out, schedule=schedule)
+    return 0 if status is None else int(status)
+
+
+def _add_check(subparsers) -> None:
+    p = subparsers.add_parser(
+        "check", help="validate problem files and print the vehicle summary",
+        description="Validate problem files; print each vehicle's masses, rocket-equation "
+                    "velocity budget, burn times and liftoff thrust-to-weight. Exit status 2 "
+                    "if any file has problems (all of them are listed on stderr).")
+    p.add_argument("files", nargs="+", metavar="FILE", help="YAML problem file")
+    p.set_defaults(handler=_cmd_check)
+
+
+def _add_simulate(subparsers) -> None:
+    p = subparsers.add_parser(
+        "simulate", help="fly a given control schedule by forward integration",
+        description="Forward-integrate the problem's vehicle under a control schedule "
+                    "(from --schedule, else the file's schedule section, else the default).")
+    p.add_argument("file", metavar="FILE", help="YAML problem file")
+    p.add_argument("--out", metavar="DIR", default=None,
+                   help="results folder (default: results/<problem name>/)")
+    p.add_argument("--schedule", metavar="CSV", default=None,
+                   help="CSV control schedule to fly instead of the file's schedule")
+    p.set_defaults(handler=_cmd_simulate)
+
+
+#: each verb adds its own parser; a new verb is one more function here
+_VERBS = (_add_check, _add_simulate)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser with every verb registered."""
+    parser = argparse.ArgumentParser(
+        prog="ascentplan",
+        description="Throttle, steering and stage-mass-split optimisation of rocket ascents "
+                    "(conceptual design; results are not flight-qualified).")
+    parser.add_argument("--version", action="version", version=f"ascentplan {__version__}")
+    subparsers = parser.add_subparsers(dest="verb", metavar="VERB")
+    for add in _VERBS:
+        add(subparsers)
+    return parser
+
+
+def main(argv=None) -> int:
+    """Run the command line.
+
+    Parameters
+    ----------
+    argv : list of str, optional
+        Arguments after the program name; default ``sys.argv[1:]``.
+
+    Returns
+    -------
+    int
+        Exit status: 0 success, 2 bad problem file or usage, other values from the verb.
+    """
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:
+        # argparse exits on --help, --version and usage errors; return the status instead
+        if exc.code is None:
+            return 0
+        return exc.code if isinstance(exc.code, int) else EXIT_BAD_INPUT
+    if getattr(args, "handler", None) is None:
+        parser.print_usage(sys.stderr)
+        print("ascentplan: choose a verb, e.g. 'ascentplan check problem.yaml'",
+              file=sys.stderr)
+        return EXIT_BAD_INPUT
+    try:
+        return args.handler(args)
+    except ProblemError as exc:
+        _report(exc, getattr(args, "file", "ascentplan"))
+        return EXIT_BAD_INPUT
+    except yaml.YAMLError as exc:
+        print(f"{getattr(args, 'file', 'ascentplan')}: not valid YAML: {exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except OSError as exc:
+        name = exc.filename or getattr(args, "file", "ascentplan")
+        print(f"{name}: {exc.strerror or exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
