@@ -1,0 +1,355 @@
+"""Trajectory and schedule files, the simulation summary and its readable text."""
+
+from __future__ import annotations
+
+import csv
+import json
+import math
+import os
+
+import numpy as np
+
+from .cautions import CAUTION
+from .simulate import LOSS_NAMES, LOSS_QUANTITIES, PhaseControls, PhaseSchedule, Trajectory
+
+#: columns of a schedule CSV, in order
+SCHEDULE_COLUMNS = ("phase", "kind", "stage", "phase_time_s", "time_s", "throttle", "pitch_deg")
+_PHASE_KINDS = ("rise", "burn", "coast")
+
+
+class ScheduleFileError(ValueError):
+    """A schedule CSV that cannot be read; the message names the file, line and column."""
+
+
+# --------------------------------------------------------------------------------------
+# trajectory CSV
+
+
+def _trajectory_columns(traj: Trajectory):
+    """(header, values) pairs of the trajectory CSV, SI units in the names."""
+    q = traj.quantities
+    deg = 180.0 / math.pi
+    cols = [("time_s", traj.time), ("phase", traj.phase.astype(float))]
+    if traj.dynamics == "vertical":
+        cols += [("altitude_m", traj.state[0]), ("vertical_speed_m_s", traj.state[1]),
+                 ("mass_kg", traj.state[2]), ("throttle", traj.controls[0])]
+    else:
+        cols += [("altitude_m", q["altitude"]), ("speed_m_s", q["speed"]),
+                 ("flight_path_angle_deg", q["flight_path_angle"] * deg),
+                 ("mass_kg", traj.state[4]), ("throttle", traj.controls[0]),
+                 ("pitch_deg", traj.controls[1] * deg),
+                 ("radius_m", traj.state[0]), ("range_angle_deg", traj.state[1] * deg),
+                 ("radial_speed_m_s", traj.state[2]),
+                 ("horizontal_speed_m_s", traj.state[3])]
+    cols += [("relative_speed_m_s", q["relative_speed"]),
+             ("dynamic_pressure_Pa", q["dynamic_pressure"]), ("mach", q["mach"]),
+             ("axial_acceleration_g0", q["axial_acceleration"])]
+    if traj.dynamics == "planar":
+        cols += [("angle_of_attack_deg", q["angle_of_attack"] * deg),
+                 ("q_alpha_Pa_rad", q["q_alpha"])]
+    cols += [("thrust_N", q["thrust"]), ("drag_N", q["drag"]),
+             ("mass_flow_kg_s", q["mass_flow"]), ("density_kg_m3", q["density"]),
+             ("pressure_Pa", q["pressure"])]
+    cols += [(f"{LOSS_QUANTITIES[name]}_m_s", q[LOSS_QUANTITIES[name]]) for name in LOSS_NAMES]
+    return cols
+
+
+def write_trajectory_csv(trajectory: Trajectory, path) -> None:
+    """Write one row per sample; the header names each column with its SI unit.
+
+    Columns (planar): time_s, phase, altitude_m, speed_m_s (inertial),
+    flight_path_angle_deg (inertial), mass_kg, throttle, pitch_deg, radius_m,
+    range_angle_deg, radial_speed_m_s, horizontal_speed_m_s, relative_speed_m_s,
+    dynamic_pressure_Pa, mach, axial_acceleration_g0, angle_of_attack_deg,
+    q_alpha_Pa_rad, thrust_N, drag_N, mass_flow_kg_s, density_kg_m3, pressure_Pa and the
+    running loss budget ideal_dv_m_s, gravity_loss_m_s, drag_loss_m_s,
+    steering_loss_m_s, back_pressure_loss_m_s. Vertical: altitude_m,
+    vertical_speed_m_s, mass_kg, throttle instead of the planar state and pitch, and no
+    angle of attack.
+    """
+    cols = _trajectory_columns(trajectory)
+    data = np.column_stack([np.asarray(v, dtype=float) for _, v in cols])
+    header = ",".join(name for name, _ in cols)
+    fmt = ["%.12g"] * len(cols)
+    fmt[1] = "%d"
+    np.savetxt(path, data, delimiter=",", header=header, comments="", fmt=fmt)
+
+
+# --------------------------------------------------------------------------------------
+# summary
+
+
+def _clean(value):
+    """JSON-ready copy: numpy scalars to Python, NaN and infinities to None."""
+    if isinstance(value, dict):
+        return {str(k): _clean(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_clean(v) for v in value]
+    if isinstance(value, np.ndarray):
+        return [_clean(v) for v in value.tolist()]
+    if isinstance(value, (np.integer,)):
+        return int(value)
+    if isinstance(value, (float, np.floating)):
+        value = float(value)
+        return value if math.isfinite(value) else None
+    return value
+
+
+def _event_summary(event: dict) -> dict:
+    deg = 180.0 / math.pi
+    out = dict(kind=event["kind"], time_s=event["time"], phase=event["phase"],
+               stage=event["stage"], altitude_m=event["altitude"], speed_m_s=event["speed"],
+               flight_path_angle_deg=event["flight_path_angle"] * deg, mass_kg=event["mass"])
+    for key, name in (("propellant_remaining", "propellant_remaining_kg"),
+                      ("dropped_mass", "dropped_mass_kg"), ("scheduled_end", "scheduled_end_s")):
+        if event.get(key) is not None:
+            out[name] = event[key]
+    return out
+
+
+def _at(traj, name, index):
+    return float(traj.quantities[name][index])
+
+
+def simulation_summary(problem, trajectory: Trajectory) -> dict:
+    """Machine-readable summary of a flight (JSON-ready, stable keys, SI units in names).
+
+    Keys: ``problem``, ``dynamics``, ``status``, ``message``, ``burnout`` (time_s,
+    altitude_m, speed_m_s, flight_path_angle_deg, mass_kg), ``apogee`` (time_s,
+    altitude_m, or None), ``peaks`` (``dynamic_pressure``: value_Pa, time_s, altitude_m,
+    mach; ``axial_acceleration``: value_g0, time_s, altitude_m; planar ``q_alpha``:
+    value_Pa_rad, time_s, altitude_m, mach; ``min_altitude``: value_m, time_s),
+    ``losses_m_s`` (ideal, achieved, gravity, drag, steering, back_pressure, residual =
+    ideal - achieved - losses), ``phases`` (index, kind, stage, start_s, end_s),
+    ``events`` and ``caution``.
+    """
+    traj = trajectory
+    deg = 180.0 / math.pi
+    i = traj._burnout_index()
+    burnout = dict(time_s=float(traj.time[i]), altitude_m=_at(traj, "altitude", i),
+                   speed_m_s=_at(traj, "speed", i),
+                   flight_path_angle_deg=_at(traj, "flight_path_angle", i) * deg,
+                   mass_kg=float(traj.state[-1, i]))
+    apogees = [e for e in traj.events if e["kind"] == "apogee"]
+    apogee = (dict(time_s=apogees[-1]["time"], altitude_m=apogees[-1]["altitude"])
+              if apogees else None)
+    peaks = {}
+
+    def at_peak(name):
+        value, time, j = traj.peak(name)
+        return value, time, traj.quantities_at(time, phase=int(traj.phase[j]))
+
+    value, time, q = at_peak("dynamic_pressure")
+    peaks["dynamic_pressure"] = dict(value_Pa=value, time_s=time, altitude_m=q["altitude"],
+                                     mach=q["mach"])
+    value, time, q = at_peak("axial_acceleration")
+    peaks["axial_acceleration"] = dict(value_g0=value, time_s=time, altitude_m=q["altitude"])
+    if "q_alpha" in traj.quantities:
+        value, time, q = at_peak("q_alpha")
+        peaks["q_alpha"] = dict(value_Pa_rad=value, time_s=time, altitude_m=q["altitude"],
+                                mach=q["mach"])
+    value, time, _ = traj.peak("min_altitude")
+    peaks["min_altitude"] = dict(value_m=value, time_s=time)
+    losses = dict(traj.losses)
+    losses["residual"] = losses["ideal"] - losses["achieved"] - sum(
+        losses[name] for name in LOSS_NAMES if name != "ideal")
+    phases = [dict(index=k, kind=kind, stage=stage, start_s=bounds[0], end_s=bounds[1])
+              for k, (kind, stage, bounds) in enumerate(zip(
+                  traj.phase_kinds, traj.phase_stages, traj.phase_bounds))]
+    summary = dict(problem=problem.name, dynamics=traj.dynamics, status=traj.status,
+                   message=traj.message, burnout=burnout, apogee=apogee, peaks=peaks,
+                   losses_m_s=losses, phases=phases,
+                   events=[_event_summary(e) for e in traj.events], caution=CAUTION)
+    return _clean(summary)
+
+
+def write_json(d: dict, path) -> None:
+    """Write a JSON-ready dict (NaN becomes null), indented, with a final newline."""
+    with open(path, "w", encoding="utf-8") as fh:
+        json.dump(_clean(d), fh, indent=2, allow_nan=False)
+        fh.write("\n")
+
+
+def format_summary(summary: dict) -> str:
+    """The readable text of :func:`simulation_summary` printed by the simulate verb."""
+    lines = [f"{summary['problem']} ({summary['dynamics']}): status {summary['status']}"
+             f" - {summary['message']}"]
+
+    def num(value, fmt):
+        return "n/a" if value is None else format(value, fmt)
+
+    b = summary["burnout"]
+    lines.append(f"burnout      t = {num(b['time_s'], '.2f')} s, altitude "
+                 f"{num(b['altitude_m'] / 1e3 if b['altitude_m'] is not None else None, '.3f')}"
+                 f" km, speed {num(b['speed_m_s'], '.2f')} m/s, flight-path angle "
+                 f"{num(b['flight_path_angle_deg'], '.3f')} deg, mass "
+                 f"{num(b['mass_kg'], '.1f')} kg")
+    a = summary.get("apogee")
+    if a:
+        lines.append(f"apogee       t = {num(a['time_s'], '.2f')} s, altitude "
+                     f"{num(a['altitude_m'] / 1e3, '.3f')} km")
+    p = summary["peaks"]
+    q = p["dynamic_pressure"]
+    lines.append(f"max q        {num(q['value_Pa'] / 1e3, '.3f')} kPa at t = "
+                 f"{num(q['time_s'], '.2f')} s, altitude {num(q['altitude_m'] / 1e3, '.2f')}"
+                 f" km, Mach {num(q['mach'], '.2f')}")
+    g = p["axial_acceleration"]
+    lines.append(f"max axial    {num(g['value_g0'], '.3f')} g0 at t = {num(g['time_s'], '.2f')} s")
+    if "q_alpha" in p:
+        qa = p["q_alpha"]
+        lines.append(f"max q-alpha  {num(qa['value_Pa_rad'] / 1e3 * 180 / math.pi, '.3f')} "
+                     f"kPa deg at t = {num(qa['time_s'], '.2f')} s")
+    lines.append("velocity budget [m/s]")
+    losses = summary["losses_m_s"]
+    for key, label in (("ideal", "ideal"), ("gravity", "gravity loss"),
+                       ("drag", "drag loss"), ("steering", "steering loss"),
+                       ("back_pressure", "back-pressure loss"), ("achieved", "achieved"),
+                       ("residual", "residual")):
+        lines.append(f"  {label:<20s}{num(losses[key], '12.3f')}")
+    return "\n".join(lines)
+
+
+# --------------------------------------------------------------------------------------
+# schedule CSV
+
+
+def write_schedule_csv(schedule: PhaseSchedule, path, phase_plan) -> None:
+    """Write a :class:`~ascentplan.simulate.PhaseSchedule` as a schedule CSV.
+
+    Columns ``phase,kind,stage,phase_time_s,time_s,throttle,pitch_deg``, one row per
+    node; ``time_s`` is from liftoff with the scheduled durations, ``pitch_deg`` is
+    empty where the phase has no pitch. Each phase ends with a node at its duration so
+    that reading the file back gives the same durations.
+    """
+    plan = list(phase_plan)
+    if len(plan) != len(schedule.phases):
+        raise ValueError(f"write_schedule_csv: {len(schedule.phases)} phases in the schedule,"
+                         f" {len(plan)} in the phase plan")
+    start = 0.0
+    with open(path, "w", newline="", encoding="utf-8") as fh:
+        writer = csv.writer(fh)
+        writer.writerow(SCHEDULE_COLUMNS)
+        for k, (pc, phase) in enumerate(zip(schedule.phases, plan)):
+            times = pc.time
+            throttle = pc.throttle
+            pitch = pc.pitch
+            if times[-1] < pc.duration:
+                # the held last value, made explicit so the duration survives
+                times = np.append(times, pc.duration)
+                throttle = np.append(throttle, throttle[-1])
+                pitch = None if pitch is None else np.append(pitch, pitch[-1])
+            for j, tj in enumerate(times):
+                pitch_text = "" if pitch is None else repr(float(np.degrees(pitch[j])))
+                writer.writerow([k, phase.kind, phase.stage, repr(float(tj)),
+                                 repr(float(start + tj)), repr(float(throttle[j])), pitch_text])
+            start += pc.duration
+
+
+def read_schedule_csv(path) -> PhaseSchedule:
+    """Read a schedule CSV into a :class:`~ascentplan.simulate.PhaseSchedule`.
+
+    The phase duration is the last ``phase_time_s`` of the phase; ``time_s`` is read
+    for checking only. Phases must be numbered 0, 1, ... in order; ``kind`` and
+    ``stage`` are kept on each :class:`~ascentplan.simulate.PhaseControls` and checked
+    against the problem's phase plan when flown.
+
+    Raises
+    ------
+    ScheduleFileError
+        With the file, line and column of the first problem found.
+    """
+    name = os.fspath(path)
+    try:
+        fh = open(name, newline="", encoding="utf-8")
+    except OSError as exc:
+        raise ScheduleFileError(f"{name}: cannot read the schedule file ({exc.strerror})") \
+            from None
+    with fh:
+        reader = csv.reader(fh)
+        try:
+            header = next(reader)
+        except StopIteration:
+            raise ScheduleFileError(f"{name}: empty file; expected the header "
+                                    f"{','.join(SCHEDULE_COLUMNS)}") from None
+        header = [h.strip() for h in header]
+        missing = [c for c in SCHEDULE_COLUMNS if c not in header]
+        if missing:
+            raise ScheduleFileError(f"{name}: missing column(s) {', '.join(missing)}; "
+                                    f"expected {','.join(SCHEDULE_COLUMNS)}")
+        col = {c: header.index(c) for c in SCHEDULE_COLUMNS}
+        rows = []
+        for line_no, row in enumerate(reader, start=2):
+            if not row or all(not cell.strip() for cell in row):
+                continue
+            if len(row) < len(header):
+                raise ScheduleFileError(f"{name} line {line_no}: expected {len(header)} "
+                                        f"fields, got {len(row)}")
+            rows.append((line_no, {c: row[col[c]].strip() for c in SCHEDULE_COLUMNS}))
+    if not rows:
+        raise ScheduleFileError(f"{name}: no schedule rows after the header")
+
+    def number(line_no, cells, column, integer=False, optional=False):
+        text = cells[column]
+        if optional and text == "":
+            return None
+        try:
+            value = int(text) if integer else float(text)
+        except ValueError:
+            kind = "an integer" if integer else "a number"
+            raise ScheduleFileError(f"{name} line {line_no}: {column}: expected {kind}, "
+                                    f"got {text!r}") from None
+        if not integer and not math.isfinite(value):
+            raise ScheduleFileError(f"{name} line {line_no}: {column}: must be finite, "
+                                    f"got {text!r}")
+        return value
+
+    groups: list[list] = []
+    for line_no, cells in rows:
+        k = number(line_no, cells, "phase", integer=True)
+        if k == len(groups):
+            groups.append([])
+        elif k != len(groups) - 1:
+            expected = f"{len(groups) - 1} or {len(groups)}" if groups else "0"
+            raise ScheduleFileError(f"{name} line {line_no}: phase: expected {expected} "
+                                    f"(phases numbered from 0, in order), got {k}")
+        kind = cells["kind"]
+        if kind not in _PHASE_KINDS:
+            raise ScheduleFileError(f"{name} line {line_no}: kind: expected one of "
+                                    f"{', '.join(_PHASE_KINDS)}, got {kind!r}")
+        stage = number(line_no, cells, "stage", integer=True)
+        if stage < 0:
+            raise ScheduleFileError(f"{name} line {line_no}: stage: must be >= 0, got {stage}")
+        t_rel = number(line_no, cells, "phase_time_s")
+        number(line_no, cells, "time_s")
+        throttle = number(line_no, cells, "throttle")
+        if throttle < 0:
+            raise ScheduleFileError(f"{name} line {line_no}: throttle: must be >= 0, "
+                                    f"got {throttle}")
+        pitch = number(line_no, cells, "pitch_deg", optional=True)
+        group = groups[-1]
+        if group:
+            first_line, first_kind, first_stage = group[0][0], group[0][1], group[0][2]
+            if (kind, stage) != (first_kind, first_stage):
+                raise ScheduleFileError(
+                    f"{name} line {line_no}: phase {k} was {first_kind!r} of stage "
+                    f"{first_stage} on line {first_line}, now {kind!r} of stage {stage}")
+            if t_rel <= group[-1][3]:
+                raise ScheduleFileError(f"{name} line {line_no}: phase_time_s: must increase "
+                                        f"within phase {k}, got {t_rel} after "
+                                        f"{group[-1][3]}")
+            if (pitch is None) != (group[-1][5] is None):
+                raise ScheduleFileError(f"{name} line {line_no}: pitch_deg: give it on every "
+                                        f"node of phase {k} or on none")
+        elif t_rel < 0:
+            raise ScheduleFileError(f"{name} line {line_no}: phase_time_s: must be >= 0, "
+                                    f"got {t_rel}")
+        group.append((line_no, kind, stage, t_rel, throttle, pitch))
+
+    phases = []
+    for group in groups:
+        times = np.array([g[3] for g in group])
+        pitch = None if group[0][5] is None else np.radians([g[5] for g in group])
+        phases.append(PhaseControls(duration=float(times[-1]), time=times,
+                                    throttle=np.array([g[4] for g in group]), pitch=pitch,
+                                    kind=group[0][1], stage=group[0][2]))
+    return PhaseSchedule(tuple(phases))
