@@ -463,6 +463,8 @@ class AscentNLP:
     def unpack(self, w: np.ndarray):
         """Physical durations, states and controls per phase from a decision vector."""
         durations, states, controls = [], [], []
+        # IPOPT may relax bounds by ~1e-8; the schedule handed on stays within them
+        w = np.clip(w, self.lbw, self.ubw)
         for j in range(len(self.phases)):
             sx, shx = self._index[f"x{j}"]
             X = w[sx:sx + shx[0] * shx[1]].reshape(shx, order="F")

@@ -310,11 +310,9 @@ def write_outputs(result: Result, out_dir) -> list:
     written.append(out / "trajectory.csv")
     write_schedule_csv(result.schedule, out / "schedule.csv", phase_plan(result.problem))
     written.append(out / "schedule.csv")
-    try:
-        from .plots import plot_result
-        from .report import write_report
-    except ImportError:  # plotting back-end missing: the numbers are still written
-        return written
+    from .plots import plot_result
+    from .report import write_report
+
     pngs = plot_result(result, out)
     written += list(pngs)
     written.append(write_report(result, out, plots=pngs))

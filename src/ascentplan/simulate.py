@@ -33,6 +33,8 @@ LOSS_QUANTITIES = {
 KICK_DURATION = 5.0
 #: uniform samples per phase added to the solver steps
 SAMPLES_PER_PHASE = 400
+#: relative slack below the burnout mass before a burn counts as run dry
+DEPLETION_SLACK = 1e-6
 #: shortest cap on a coast to apogee and on a burn that ends on depletion [s]
 FLIGHT_CAP = 3.0 * 3600.0
 #: longest cap on a coast to apogee, whatever the orbit [s]
@@ -705,7 +707,10 @@ def _fly_phase(problem, law, rates, k, phase, t0, y0, rtol, atol, max_step, exha
     impact.terminal, impact.direction = True, -1
     base = [("impact", impact)]
     if phase.powered:
-        m_burnout = problem.vehicle.burnout_mass(phase.stage)
+        # A schedule that burns exactly the propellant (an optimiser's, at its mass bound)
+        # reaches the burnout mass to within solver tolerance; one part in a million of
+        # slack (a gram per tonne) keeps rounding from cutting the rest of the phase short.
+        m_burnout = problem.vehicle.burnout_mass(phase.stage) * (1.0 - DEPLETION_SLACK)
 
         def depletion(t, y):
             return y[n - 1] - m_burnout

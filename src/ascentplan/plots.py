@@ -1,0 +1,354 @@
+"""Time-history plots of an ascent (altitude, speed, loads, controls, mass) written as PNG files."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Callable
+
+import numpy as np
+# Figure with its own Agg canvas never touches pyplot's global state, so plotting works
+# headless and inside a user's interactive session alike, and needs no explicit close.
+from matplotlib.backends.backend_agg import FigureCanvasAgg
+from matplotlib.figure import Figure
+from matplotlib.lines import Line2D
+
+from .dynamics import altitude_speed_fpa, flight_model, flight_quantities, propulsion
+from .problem import LIMIT_UNITS, Problem, phase_plan
+
+__all__ = ["DPI", "PANELS", "plot_result", "plot_trajectory", "result_nodes"]
+
+#: resolution of every PNG [dots per inch]
+DPI = 150
+
+_PANEL_SIZE = (7.0, 4.2)  # single-quantity figure [in]
+_CELL_SIZE = (5.0, 3.4)  # one cell of the overview grid [in]
+_REPLAY_STYLE = dict(color="C0", linewidth=1.6)
+_AIR_RELATIVE_STYLE = dict(color="C2", linewidth=1.4, linestyle="--")
+_NODE_STYLE = dict(color="C1", marker="o", markersize=3.2, linestyle="none")
+_BOUND_STYLE = dict(color="C3", linewidth=1.2, linestyle="--")
+_EVENT_STYLE = dict(color="0.35", linewidth=1.0, linestyle=":")
+#: events closer than this fraction of the flight time share one marker and label
+_EVENT_MERGE_FRACTION = 0.004
+#: fraction of an axes' height kept free above the data for event names
+_EVENT_BAND = 0.14
+
+
+@dataclass(frozen=True)
+class _Panel:
+    """One plotted quantity: file stem, title, axis label and which flights show it."""
+
+    key: str
+    title: str
+    ylabel: str
+    shown: Callable[[Problem], bool]
+
+
+def _always(problem: Problem) -> bool:
+    return True
+
+
+def _planar(problem: Problem) -> bool:
+    return problem.dynamics == "planar"
+
+
+def _planar_with_q_alpha_limit(problem: Problem) -> bool:
+    return problem.dynamics == "planar" and problem.limits.max_q_alpha is not None
+
+
+#: the panels in plotting order; ``key`` is also the PNG file stem
+PANELS = (
+    _Panel("altitude", "Altitude", "altitude [km]", _always),
+    _Panel("speed", "Speed", "speed [m/s]", _always),
+    _Panel("dynamic_pressure", "Dynamic pressure", "dynamic pressure [kPa]", _always),
+    _Panel("axial_acceleration", "Sensed axial acceleration", "axial acceleration [g0]",
+           _always),
+    _Panel("q_alpha", "Dynamic pressure times angle of attack", "|q alpha| [kPa deg]",
+           _planar_with_q_alpha_limit),
+    _Panel("throttle", "Throttle", "throttle [fraction of full flow]", _always),
+    _Panel("pitch", "Thrust pitch from local horizontal", "pitch [deg]", _planar),
+    _Panel("mass", "Vehicle mass", "mass [t]", _always),
+)
+
+_Q_ALPHA_FACTOR = LIMIT_UNITS["max_q_alpha"][1]  # Pa rad per kPa deg
+
+
+def _quantity(trajectory, name: str) -> np.ndarray:
+    return np.asarray(trajectory.quantities[name], dtype=float)
+
+
+def _replay_lines(problem: Problem, trajectory, key: str) -> list[tuple[np.ndarray, dict, str]]:
+    """The replay's curves of a panel: (values in plot units, line style, legend label)."""
+    if key == "altitude":
+        return [(_quantity(trajectory, "altitude") / 1000.0, _REPLAY_STYLE, "replay")]
+    if key == "speed":
+        lines = [(_quantity(trajectory, "speed"), _REPLAY_STYLE,
+                  "inertial" if problem.dynamics == "planar" else "replay")]
+        if problem.dynamics == "planar" and "relative_speed" in trajectory.quantities:
+            lines.append((_quantity(trajectory, "relative_speed"), _AIR_RELATIVE_STYLE,
+                          "air-relative"))
+        return lines
+    if key == "dynamic_pressure":
+        return [(_quantity(trajectory, "dynamic_pressure") / 1000.0, _REPLAY_STYLE, "replay")]
+    if key == "axial_acceleration":
+        return [(_quantity(trajectory, "axial_acceleration"), _REPLAY_STYLE, "replay")]
+    if key == "q_alpha":
+        return [(np.abs(_quantity(trajectory, "q_alpha")) / _Q_ALPHA_FACTOR, _REPLAY_STYLE,
+                 "replay")]
+    controls = np.asarray(trajectory.controls, dtype=float)
+    if key == "throttle":
+        return [(controls[0], _REPLAY_STYLE, "replay")]
+    if key == "pitch":
+        return [(np.degrees(controls[1]), _REPLAY_STYLE, "replay")]
+    if key == "mass":
+        return [(np.asarray(trajectory.state, dtype=float)[-1] / 1000.0, _REPLAY_STYLE,
+                 "replay")]
+    raise KeyError(key)
+
+
+def _bound(problem: Problem, key: str) -> tuple[float, str] | None:
+    """The imposed limit drawn on a panel, in plot units, with its legend label."""
+    lim = problem.limits
+    if key == "dynamic_pressure" and lim.max_dynamic_pressure is not None:
+        value = lim.max_dynamic_pressure / 1000.0
+        return value, f"max dynamic pressure {value:.4g} kPa"
+    if key == "axial_acceleration" and lim.max_axial_acceleration is not None:
+        value = float(lim.max_axial_acceleration)
+        return value, f"max axial acceleration {value:.4g} g0"
+    if key == "q_alpha" and lim.max_q_alpha is not None:
+        value = lim.max_q_alpha / _Q_ALPHA_FACTOR
+        return value, f"max q alpha {value:.4g} kPa deg"
+    if key == "altitude" and lim.min_altitude is not None:
+        value = lim.min_altitude / 1000.0
+        return value, f"min altitude {value:.4g} km"
+    return None
+
+
+def _node_quantities(problem: Problem, nodes) -> list[dict]:
+    """Per phase, the panel values at the optimiser's nodes (plot units), keyed by panel.
+
+    Controls are always shown; quantities that need the state only when the node states
+    are given (a third element of each entry).
+    """
+    phases = phase_plan(problem)
+    model = flight_model(problem)
+    out = []
+    for j, entry in enumerate(nodes):
+        times = np.asarray(entry[0], dtype=float).ravel()
+        controls = np.atleast_2d(np.asarray(entry[1], dtype=float))
+        values = {"time": times, "throttle": controls[0]}
+        if problem.dynamics == "planar" and controls.shape[0] > 1:
+            values["pitch"] = np.degrees(controls[1])
+        if len(entry) > 2 and entry[2] is not None and j < len(phases):
+            states = np.atleast_2d(np.asarray(entry[2], dtype=float))
+            ph = phases[j]
+            prop = propulsion(problem.vehicle.stages[ph.stage], ph.powered)
+            f = flight_quantities(states, controls, model, prop)
+            _h, speed, _fpa = altitude_speed_fpa(states, problem.dynamics, problem.planet)
+            values["altitude"] = np.asarray(f["altitude"]) / 1000.0
+            values["speed"] = np.asarray(speed)
+            values["dynamic_pressure"] = np.asarray(f["dynamic_pressure"]) / 1000.0
+            values["axial_acceleration"] = np.asarray(f["axial_acceleration"])
+            if "q_alpha" in f:
+                values["q_alpha"] = np.abs(np.asarray(f["q_alpha"])) / _Q_ALPHA_FACTOR
+            values["mass"] = states[-1] / 1000.0
+        out.append(values)
+    return out
+
+
+def _event_marks(problem: Problem, trajectory) -> list[tuple[float, str]]:
+    """Event times [s] and labels; coincident events (burnout, then staging) share one."""
+    stages = problem.vehicle.stages
+    t = np.asarray(trajectory.time, dtype=float)
+    span = float(t[-1] - t[0]) if t.size > 1 else 1.0
+    groups: list[tuple[float, list[str], list[str]]] = []  # time, kinds, stage names
+    for ev in sorted(getattr(trajectory, "events", []) or [], key=lambda e: e["time"]):
+        kind = str(ev.get("kind", "event")).replace("_", " ")
+        if kind == "liftoff":
+            continue
+        time = float(ev["time"])
+        stage = ev.get("stage")
+        name = (stages[stage].name if isinstance(stage, (int, np.integer))
+                and 0 <= stage < len(stages) and kind != "apogee" else None)
+        if not groups or time - groups[-1][0] > _EVENT_MERGE_FRACTION * span:
+            groups.append((time, [], []))
+        _, kinds, names = groups[-1]
+        if kind not in kinds:
+            kinds.append(kind)
+        if name is not None and name not in names:
+            names.append(name)
+    return [(time, " + ".join(kinds) + (f" ({', '.join(names)})" if names else ""))
+            for time, kinds, names in groups]
+
+
+def _draw_panel(ax, problem: Problem, trajectory, panel: _Panel, node_values, events,
+                *, label_events: bool, legend: bool) -> None:
+    t = np.asarray(trajectory.time, dtype=float)
+    for values, style, label in _replay_lines(problem, trajectory, panel.key):
+        ax.plot(t, values, label=label, **style)
+    if node_values:
+        first = True
+        for values in node_values:
+            if panel.key in values:
+                ax.plot(values["time"], values[panel.key],
+                        label="optimiser nodes" if first else "_nolegend_", **_NODE_STYLE)
+                first = False
+    bound = _bound(problem, panel.key)
+    if bound is not None:
+        ax.axhline(bound[0], label=bound[1], gid="bound", **_BOUND_STYLE)
+    ax.set_xlabel("time [s]")
+    ax.set_ylabel(panel.ylabel)
+    ax.set_title(panel.title, fontsize=10)
+    ax.grid(True, alpha=0.3)
+    if t.size > 1:
+        # a little room on the right so an event at the last sample stays visible
+        ax.set_xlim(t[0], t[-1] + 0.01 * (t[-1] - t[0]))
+    if panel.key == "throttle":
+        ax.set_ylim(0.0, 1.05 * max(1.0, ax.get_ylim()[1]))
+    for time, _label in events:
+        ax.axvline(time, gid="event", **_EVENT_STYLE)
+    if label_events and events:
+        _label_events(ax, events)
+    if legend:
+        ax.legend(fontsize=8, loc="best", framealpha=0.85)
+
+
+def _label_events(ax, events) -> None:
+    """Event names in a band added above the data, so that they never hide a curve."""
+    low, high = ax.get_ylim()
+    ax.set_ylim(low, high + _EVENT_BAND * (high - low) / (1.0 - _EVENT_BAND))
+    x0, x1 = ax.get_xlim()
+    for i, (time, label) in enumerate(events):
+        # left of the line in the right half, right of it in the left half: stays inside
+        right_half = (time - x0) > 0.5 * (x1 - x0)
+        # successive labels alternate between two rows so that close events stay legible
+        y = 0.985 - 0.065 * (i % 2)
+        ax.annotate(label, xy=(time, y), xycoords=ax.get_xaxis_transform(),
+                    xytext=(-3 if right_half else 3, 0), textcoords="offset points",
+                    ha="right" if right_half else "left", va="top", fontsize=7,
+                    color="0.25")
+
+
+def _panels_for(problem: Problem) -> list[_Panel]:
+    return [p for p in PANELS if p.shown(problem)]
+
+
+def _panel_figure(problem: Problem, trajectory, key: str, nodes=None) -> Figure:
+    """The figure of one panel (``key`` from :data:`PANELS`), not yet saved."""
+    panel = next(p for p in PANELS if p.key == key)
+    fig = Figure(figsize=_PANEL_SIZE, layout="constrained")
+    FigureCanvasAgg(fig)
+    ax = fig.add_subplot()
+    node_values = _node_quantities(problem, nodes) if nodes is not None else None
+    _draw_panel(ax, problem, trajectory, panel, node_values, _event_marks(problem, trajectory),
+                label_events=True, legend=True)
+    fig.suptitle(problem.name, fontsize=9, color="0.3", x=0.99, ha="right")
+    return fig
+
+
+def _overview_figure(problem: Problem, trajectory, nodes=None) -> Figure:
+    """All panels of the flight on one grid: 2x3 (vertical flight) or 3x3 (planar)."""
+    panels = _panels_for(problem)
+    ncols = 3
+    nrows = -(-len(panels) // ncols)
+    fig = Figure(figsize=(_CELL_SIZE[0] * ncols, _CELL_SIZE[1] * nrows + 0.6),
+                 layout="constrained")
+    FigureCanvasAgg(fig)
+    node_values = _node_quantities(problem, nodes) if nodes is not None else None
+    events = _event_marks(problem, trajectory)
+    axes = fig.subplots(nrows, ncols, squeeze=False).ravel()
+    for i, (ax, panel) in enumerate(zip(axes, panels)):
+        # event names on the first panel only: nine copies would hide the curves
+        _draw_panel(ax, problem, trajectory, panel, node_values, events,
+                    label_events=i == 0, legend=panel.key == "speed" and _planar(problem))
+    for ax in axes[len(panels):]:
+        ax.remove()
+    handles = [Line2D([], [], **_REPLAY_STYLE, label="replay (forward integration)")]
+    if node_values:
+        handles.append(Line2D([], [], **_NODE_STYLE, label="optimiser nodes"))
+    if any(_bound(problem, p.key) for p in panels):
+        handles.append(Line2D([], [], **_BOUND_STYLE, label="imposed limit"))
+    if events:
+        handles.append(Line2D([], [], **_EVENT_STYLE, label="event (see first panel)"))
+    fig.legend(handles=handles, loc="outside lower center", ncols=len(handles), fontsize=9,
+               frameon=False)
+    fig.suptitle(f"{problem.name}: {problem.dynamics} ascent", fontsize=12)
+    return fig
+
+
+def plot_trajectory(problem: Problem, trajectory, out_dir, *, nodes=None,
+                    prefix: str = "") -> list[Path]:
+    """Write the time-history plots of a flight as PNG files.
+
+    One file per quantity, against time from liftoff [s]: ``altitude.png`` [km],
+    ``speed.png`` [m/s] (inertial; air-relative dashed for planar flight),
+    ``dynamic_pressure.png`` [kPa], ``axial_acceleration.png`` [g0], ``throttle.png``,
+    ``pitch.png`` [deg] (planar only), ``q_alpha.png`` [kPa deg] (planar with a q alpha
+    limit only) and ``mass.png`` [t]; then ``overview.png`` with all of them on one grid.
+    Imposed limits are drawn as dashed horizontal lines, events (burnout, staging,
+    apogee, ...) as labelled dotted vertical lines.
+
+    Parameters
+    ----------
+    problem : Problem
+        The problem flown (its dynamics, limits, stages and planet are used).
+    trajectory : Trajectory
+        A flight from :func:`ascentplan.simulate.simulate`.
+    out_dir : str or Path
+        Folder to write into; created if missing.
+    nodes : list, optional
+        The optimiser's mesh, one entry per phase of ``phase_plan(problem)``:
+        ``(times, controls)`` or ``(times, controls, states)``, with node times from
+        liftoff [s] (N,), controls (n_u, N) (throttle, pitch [rad]) and states (n, N).
+        Drawn as markers over the replay; with states, on every panel, else on the
+        control panels only.
+    prefix : str, optional
+        Prepended to every file name.
+
+    Returns
+    -------
+    list of Path
+        The files written, overview last.
+    """
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    paths = []
+    for panel in _panels_for(problem):
+        fig = _panel_figure(problem, trajectory, panel.key, nodes)
+        path = out / f"{prefix}{panel.key}.png"
+        fig.savefig(path, dpi=DPI)
+        paths.append(path)
+    fig = _overview_figure(problem, trajectory, nodes)
+    path = out / f"{prefix}overview.png"
+    fig.savefig(path, dpi=DPI)
+    paths.append(path)
+    return paths
+
+
+def result_nodes(result) -> list[tuple]:
+    """The optimiser's mesh of a solve result as ``nodes`` for :func:`plot_trajectory`."""
+    sol = result.solution
+    states = getattr(sol, "states", None) or [None] * len(sol.times)
+    return [(t, u, x) for t, u, x in zip(sol.times, sol.controls, states)]
+
+
+def plot_result(result, out_dir, *, prefix: str = "") -> list[Path]:
+    """Write the plots of a solve result: its verified replay with the optimiser's nodes.
+
+    Parameters
+    ----------
+    result : ascentplan.pipeline.Result
+    out_dir : str or Path
+        Folder to write into; created if missing.
+    prefix : str, optional
+        Prepended to every file name.
+
+    Returns
+    -------
+    list of Path
+        The files written, overview last (see :func:`plot_trajectory`).
+    """
+    # the replay flew the optimised masses, so the node quantities must use them too
+    problem = getattr(result, "solved_problem", None) or result.problem
+    return plot_trajectory(problem, result.trajectory, out_dir, nodes=result_nodes(result),
+                           prefix=prefix)

@@ -1,0 +1,488 @@
+"""Self-contained HTML report of a solve or a simulation, written from its summary and plots."""
+
+from __future__ import annotations
+
+import base64
+import html
+import json
+import math
+import re
+from pathlib import Path
+
+from . import __version__
+from .cautions import CAUTION
+from .problem import LIMIT_UNITS, OBJECTIVES, SCHEMES
+
+__all__ = ["REPORT_NAME", "render_html", "render_report_from_folder", "write_report"]
+
+#: file name of the report inside a results folder
+REPORT_NAME = "report.html"
+
+#: plain-words verdict for each status of a solve (pipeline) or a simulation
+_VERDICTS = {
+    "optimal": ("good", "Optimal and verified: the independent forward integration of the "
+                        "delivered schedule agrees with the optimiser within tolerance."),
+    "not_verified": ("bad", "NOT verified: the optimiser converged on its mesh, but the "
+                            "independent forward integration disagrees with it. Do not use "
+                            "these numbers as an optimum."),
+    "infeasible": ("bad", "Infeasible: no schedule was found that meets every limit and "
+                          "target. The numbers below are where the solver stopped."),
+    "failed": ("bad", "Failed: the solver did not converge. The numbers below are where it "
+                      "stopped, not an answer."),
+    "ok": ("neutral", "Forward simulation of a given schedule, flown to the end: not "
+                      "optimised, so there is nothing to verify."),
+    "impact": ("bad", "Forward simulation of a given schedule: the vehicle fell back to the "
+                      "ground. Not optimised."),
+}
+
+#: summary keys rendered by a section of their own; any other key goes to "Other results"
+_KNOWN_KEYS = {"problem", "dynamics", "status", "message", "objective", "burnout", "apogee",
+               "limits", "verification", "stages", "payload_mass_kg", "liftoff_mass_kg",
+               "solver", "losses_m_s", "peaks", "phases", "events", "caution"}
+
+#: PNG file stems in the order the report shows them (overview first); others follow
+_PLOT_ORDER = ("overview", "altitude", "speed", "dynamic_pressure", "axial_acceleration",
+               "q_alpha", "throttle", "pitch", "mass")
+
+_STYLE = """
+body { font-family: sans-serif; margin: 2em auto; max-width: 70em; padding: 0 1em;
+       color: #1a1a1a; line-height: 1.4; }
+h1 { margin-bottom: 0.1em; }
+h2 { border-bottom: 1px solid #bbb; padding-bottom: 0.2em; margin-top: 1.6em; }
+.sub { color: #555; margin-top: 0; }
+.caution { border: 2px solid #a05a00; background: #fff3dc; padding: 0.8em 1em;
+           font-weight: bold; margin: 1em 0; }
+.status { border: 2px solid #777; padding: 0.8em 1em; margin: 1em 0; }
+.status.good { border-color: #2e7d32; background: #eef7ee; }
+.status.bad { border-color: #b71c1c; background: #fbeaea; }
+.status.neutral { border-color: #555; background: #f2f2f2; }
+.status .verdict { font-size: 1.15em; font-weight: bold; margin: 0 0 0.4em 0; }
+table { border-collapse: collapse; margin: 0.6em 0; }
+th, td { border: 1px solid #ccc; padding: 0.25em 0.7em; text-align: left; }
+td.num { text-align: right; font-variant-numeric: tabular-nums; }
+th { background: #f0f0f0; }
+tr.total td { font-weight: bold; }
+code { background: #f4f4f4; padding: 0 0.2em; }
+figure { margin: 1.2em 0; }
+figure img { max-width: 100%; height: auto; border: 1px solid #ddd; }
+figcaption { color: #555; font-size: 0.9em; }
+pre { background: #f6f6f6; padding: 0.6em; overflow-x: auto; }
+"""
+
+
+#: a cell that reads as a number (or n/a) is right-aligned in a numeric column
+_NUMERIC = re.compile(r"^(n/a|[-+]?[\d,]*\.?\d+(e[-+]?\d+)?)$")
+
+
+def _e(value) -> str:
+    return html.escape(str(value), quote=True)
+
+
+def _is_number(value) -> bool:
+    return isinstance(value, (int, float)) and not isinstance(value, bool)
+
+
+def _num(value, decimals: int = 3, scale: float = 1.0) -> str:
+    """A number for a table cell; "n/a" for a missing or non-finite value."""
+    if not _is_number(value) or not math.isfinite(value):
+        return "n/a"
+    x = value / scale
+    if x != 0.0 and (abs(x) >= 1e7 or abs(x) < 10.0 ** (-decimals)):
+        return f"{x:.{max(decimals, 2)}e}"
+    return f"{x:,.{decimals}f}"
+
+
+def _yes_no(value) -> str:
+    if value is None:
+        return "n/a"
+    return "yes" if value else "no"
+
+
+def _words(name: str) -> str:
+    return str(name).replace("_", " ")
+
+
+def _table(header: list[str], rows: list[list], numeric: set[int] = frozenset(),
+           total_rows: set[int] = frozenset()) -> str:
+    """An HTML table; cells are escaped here, so pass plain text."""
+    out = ["<table>", "<thead><tr>" + "".join(f"<th>{_e(h)}</th>" for h in header)
+           + "</tr></thead>", "<tbody>"]
+    for i, row in enumerate(rows):
+        cls = ' class="total"' if i in total_rows else ""
+        cells = "".join(f'<td class="num">{_e(c)}</td>' if j in numeric and _NUMERIC.match(
+            str(c)) else f"<td>{_e(c)}</td>" for j, c in enumerate(row))
+        out.append(f"<tr{cls}>{cells}</tr>")
+    out.append("</tbody></table>")
+    return "\n".join(out)
+
+
+def _key_values(rows: list[tuple[str, str]]) -> str:
+    return _table(["quantity", "value"], [list(r) for r in rows], numeric={1})
+
+
+def _section(title: str, body: str) -> str:
+    return f"<section>\n<h2>{_e(title)}</h2>\n{body}\n</section>"
+
+
+def _caution_box(text: str) -> str:
+    return f'<div class="caution" role="note">{_e(text)}</div>'
+
+
+def _status_box(summary: dict) -> str:
+    status = str(summary.get("status", "unknown"))
+    kind, verdict = _VERDICTS.get(status, ("bad", f"Status {status}: not a verified optimum."))
+    verification = summary.get("verification")
+    if isinstance(verification, dict) and status == "optimal" and not verification.get(
+            "passed", True):
+        # guard against an inconsistent summary: a failed check is never shown as good
+        kind, verdict = _VERDICTS["not_verified"]
+    message = summary.get("message") or ""
+    return (f'<div class="status {kind}">\n<p class="verdict">{_e(verdict)}</p>\n'
+            f"<p>status: <code>{_e(status)}</code>"
+            + (f" &mdash; {_e(message)}" if message else "") + "</p>\n</div>")
+
+
+def _objective_section(summary: dict) -> str:
+    obj = summary.get("objective")
+    if not isinstance(obj, dict):
+        return ""
+    name = obj.get("name", "")
+    unit = obj.get("unit", "")
+    rows = [("objective", f"{_words(name)} ({OBJECTIVES.get(name, 'see the manual')})"),
+            (f"value from the optimiser [{unit}]", _num(obj.get("value"))),
+            (f"value as replayed [{unit}]", _num(obj.get("replayed_value")))]
+    value, replayed = obj.get("value"), obj.get("replayed_value")
+    if _is_number(value) and _is_number(replayed):
+        rows.append((f"replay minus optimiser [{unit}]", _num(replayed - value, 4)))
+    return _section("Objective", _key_values(rows))
+
+
+def _flight_section(summary: dict) -> str:
+    rows = []
+    b = summary.get("burnout")
+    if isinstance(b, dict):
+        rows += [("burnout time [s]", _num(b.get("time_s"), 2)),
+                 ("burnout altitude [km]", _num(b.get("altitude_m"), 3, 1000.0)),
+                 ("burnout inertial speed [m/s]", _num(b.get("speed_m_s"), 2)),
+                 ("burnout flight-path angle [deg]", _num(b.get("flight_path_angle_deg"), 3)),
+                 ("burnout mass [kg]", _num(b.get("mass_kg"), 1))]
+    a = summary.get("apogee")
+    if isinstance(a, dict):
+        rows += [("apogee time [s]", _num(a.get("time_s"), 2)),
+                 ("apogee altitude [km]", _num(a.get("altitude_m"), 3, 1000.0))]
+    if "payload_mass_kg" in summary:
+        rows.append(("payload mass [kg]", _num(summary.get("payload_mass_kg"), 1)))
+    if "liftoff_mass_kg" in summary:
+        rows.append(("liftoff mass [kg]", _num(summary.get("liftoff_mass_kg"), 1)))
+    return _section("Flight", _key_values(rows)) if rows else ""
+
+
+def _limits_section(summary: dict) -> str:
+    limits = summary.get("limits")
+    if limits is None:
+        return ""
+    if not limits:
+        return _section("Limits", "<p>No path limits were imposed.</p>")
+    rows = []
+    for lim in limits:
+        name = str(lim.get("name", ""))
+        unit = lim.get("unit") or LIMIT_UNITS.get(name, ("",))[0]
+        rows.append([f"{_words(name)} ({name})", unit, _num(lim.get("bound"), 3),
+                     _num(lim.get("peak"), 3), _num(lim.get("peak_time_s"), 2),
+                     _yes_no(lim.get("active")), _num(lim.get("shadow_price"), 4),
+                     lim.get("shadow_price_unit", "")])
+    note = ("<p>Peak: the extreme on the replay's dense time grid (for the minimum "
+            "altitude, the lowest point). Shadow price: the change of the objective per "
+            "unit of relaxed limit, from the optimiser's multipliers; zero when the limit "
+            "is not active.</p>")
+    return _section("Limits", _table(
+        ["limit", "unit", "bound", "peak", "peak at [s]", "active", "shadow price",
+         "shadow price unit"], rows, numeric={2, 3, 4, 6}) + "\n" + note)
+
+
+def _verification_section(summary: dict) -> str:
+    v = summary.get("verification")
+    if not isinstance(v, dict):
+        return ""
+    excess = v.get("worst_limit_excess_fraction")
+    rows = [("passed", _yes_no(v.get("passed"))),
+            ("burnout speed, replay minus optimiser [m/s]",
+             _num(v.get("burnout_speed_difference_m_s"), 4)),
+            ("burnout altitude, replay minus optimiser [m]",
+             _num(v.get("burnout_altitude_difference_m"), 3)),
+            ("worst limit excess [% of bound]",
+             _num(excess * 100.0 if _is_number(excess) else None, 3))]
+    body = _key_values(rows)
+    reasons = v.get("reasons") or []
+    if reasons:
+        body += "\n<p>Reasons:</p>\n<ul>" + "".join(f"<li>{_e(r)}</li>" for r in reasons) \
+            + "</ul>"
+    return _section("Verification by forward integration", body)
+
+
+def _stages_section(summary: dict) -> str:
+    stages = summary.get("stages")
+    if not stages:
+        return ""
+    rows = [[s.get("name", str(i)), _num(s.get("propellant_mass_kg"), 1),
+             _num(s.get("dry_mass_kg"), 1), _num(s.get("burn_time_s"), 2),
+             _num(s.get("thrust_vacuum_N"), 2, 1000.0)] for i, s in enumerate(stages)]
+    return _section("Stages", _table(
+        ["stage", "propellant [kg]", "dry mass [kg]", "burn time [s]",
+         "vacuum thrust [kN]"], rows, numeric={1, 2, 3, 4}))
+
+
+def _losses_section(summary: dict) -> str:
+    losses = summary.get("losses_m_s")
+    if not losses:
+        return ""
+    terms = (("gravity", "gravity loss"), ("drag", "drag loss"),
+             ("steering", "steering loss"), ("back_pressure", "back-pressure loss"))
+    rows = [["ideal velocity increment", _num(losses.get("ideal"), 2)]]
+    rows += [[label, _num(losses.get(key), 2)] for key, label in terms if key in losses]
+    achieved_row = len(rows)
+    rows.append(["achieved change of inertial speed", _num(losses.get("achieved"), 2)])
+    parts = [losses.get("ideal"), losses.get("achieved")] + [losses.get(k) for k, _ in terms
+                                                             if k in losses]
+    residual = losses.get("residual")
+    if residual is None and all(_is_number(p) for p in parts):
+        residual = parts[0] - parts[1] - sum(parts[2:])
+    rows.append(["closure: ideal - achieved - losses", _num(residual, 4)])
+    known = {"ideal", "achieved", "residual"} | {k for k, _ in terms}
+    rows += [[_words(k), _num(val, 2)] for k, val in losses.items() if k not in known]
+    body = _table(["term", "velocity [m/s]"], rows, numeric={1}, total_rows={0, achieved_row})
+    body += ("\n<p>Budget to burnout: ideal = achieved + gravity + drag + steering + "
+             "back-pressure losses; the closure row is the integration residual.</p>")
+    return _section("Velocity-loss budget", body)
+
+
+def _solver_section(summary: dict) -> str:
+    s = summary.get("solver")
+    if not isinstance(s, dict):
+        return ""
+    scheme = s.get("scheme", "n/a")
+    rows = [("transcription", SCHEMES.get(scheme, _words(scheme))),
+            ("nodes per phase (final mesh)", str(s.get("nodes", "n/a"))),
+            ("mesh refinements", str(s.get("mesh_refinements", "n/a"))),
+            ("IPOPT iterations (all meshes)", str(s.get("iterations", "n/a"))),
+            ("IPOPT return status", str(s.get("return_status", "n/a"))),
+            ("wall time [s]", _num(s.get("wall_time_s"), 2))]
+    known = {"scheme", "nodes", "mesh_refinements", "iterations", "return_status",
+             "wall_time_s"}
+    rows += [(_words(k), str(v)) for k, v in s.items() if k not in known]
+    return _section("Solver", _key_values(rows))
+
+
+def _peaks_section(summary: dict) -> str:
+    peaks = summary.get("peaks")
+    if not isinstance(peaks, dict):
+        return ""
+    rows = []
+    for name, p in peaks.items():
+        if not isinstance(p, dict):
+            continue
+        if "value_Pa" in p:
+            value, unit = _num(p["value_Pa"], 3, 1000.0), "kPa"
+        elif "value_g0" in p:
+            value, unit = _num(p["value_g0"], 3), "g0"
+        elif "value_Pa_rad" in p:
+            value, unit = _num(p["value_Pa_rad"], 3, LIMIT_UNITS["max_q_alpha"][1]), "kPa deg"
+        elif "value_m" in p:
+            value, unit = _num(p["value_m"], 3, 1000.0), "km"
+        else:
+            value, unit = "n/a", ""
+        rows.append([_words(name), unit, value, _num(p.get("time_s"), 2),
+                     _num(p.get("altitude_m"), 3, 1000.0), _num(p.get("mach"), 2)])
+    return _section("Peaks", _table(["quantity", "unit", "peak", "at [s]", "altitude [km]",
+                                     "Mach"], rows, numeric={2, 3, 4, 5}))
+
+
+def _phases_section(summary: dict) -> str:
+    phases = summary.get("phases")
+    if not phases:
+        return ""
+    rows = [[str(p.get("index", i)), str(p.get("kind", "")), str(p.get("stage", "")),
+             _num(p.get("start_s"), 2), _num(p.get("end_s"), 2)]
+            for i, p in enumerate(phases)]
+    return _section("Phases", _table(["phase", "kind", "stage", "start [s]", "end [s]"], rows,
+                                     numeric={3, 4}))
+
+
+def _events_section(summary: dict) -> str:
+    events = summary.get("events")
+    if not events:
+        return ""
+    rows = [[str(ev.get("kind", "")), _num(ev.get("time_s"), 2),
+             _num(ev.get("altitude_m"), 3, 1000.0), _num(ev.get("speed_m_s"), 2),
+             _num(ev.get("flight_path_angle_deg"), 3), _num(ev.get("mass_kg"), 1)]
+            for ev in events]
+    return _section("Events", _table(["event", "time [s]", "altitude [km]", "speed [m/s]",
+                                      "flight-path angle [deg]", "mass [kg]"], rows,
+                                     numeric={1, 2, 3, 4, 5}))
+
+
+def _other_section(summary: dict) -> str:
+    extra = {k: v for k, v in summary.items() if k not in _KNOWN_KEYS and not str(
+        k).startswith("_")}
+    if not extra:
+        return ""
+    text = json.dumps(extra, indent=2, default=str, allow_nan=True)
+    return _section("Other results", f"<pre>{_e(text)}</pre>")
+
+
+def _plot_sort_key(path: Path) -> tuple:
+    stem = path.stem
+    for i, key in enumerate(_PLOT_ORDER):
+        if stem.endswith(key):  # also with a file-name prefix
+            return (i, stem)
+    return (len(_PLOT_ORDER), stem)
+
+
+def _folder_plots(folder: Path) -> list[Path]:
+    return sorted((p for p in folder.glob("*.png") if p.is_file()), key=_plot_sort_key)
+
+
+def _plots_section(plots: list[Path]) -> str:
+    if not plots:
+        return _section("Plots", "<p>No plots were found.</p>")
+    figures = []
+    for path in plots:
+        data = base64.b64encode(Path(path).read_bytes()).decode("ascii")
+        caption = _words(Path(path).stem)
+        figures.append(f'<figure>\n<img src="data:image/png;base64,{data}" '
+                       f'alt="{_e(caption)}">\n<figcaption>{_e(caption)}</figcaption>\n'
+                       "</figure>")
+    note = ("<p>Solid lines: the replay by forward integration; markers, where shown: the "
+            "optimiser's node values; dashed horizontal lines: imposed limits; dotted "
+            "vertical lines: events.</p>")
+    return _section("Plots", note + "\n" + "\n".join(figures))
+
+
+def render_html(summary: dict, plots: list[Path] = ()) -> str:
+    """The report page as a string.
+
+    Parameters
+    ----------
+    summary : dict
+        The content of summary.json of a solve (see
+        :meth:`ascentplan.pipeline.Result.summary`) or of a simulation (see
+        :func:`ascentplan.outputs.simulation_summary`); sections whose keys are
+        missing are left out.
+    plots : sequence of path-like
+        PNG files embedded in the page, in this order.
+
+    Returns
+    -------
+    str
+        A complete HTML document with no external resources.
+    """
+    name = summary.get("problem", "unnamed problem")
+    dynamics = summary.get("dynamics")
+    # the caution in the file's own summary wins: it is what was shipped with the numbers
+    caution = summary.get("caution") or CAUTION
+    subtitle = f"ascentplan {__version__} report" + (f", {dynamics} flight" if dynamics
+                                                       else "")
+    parts = [
+        "<!DOCTYPE html>",
+        '<html lang="en">',
+        "<head>",
+        '<meta charset="utf-8">',
+        '<meta name="viewport" content="width=device-width, initial-scale=1">',
+        f"<title>{_e(name)} - ascentplan report</title>",
+        f"<style>{_STYLE}</style>",
+        "</head>",
+        "<body>",
+        f"<h1>{_e(name)}</h1>",
+        f'<p class="sub">{_e(subtitle)}</p>',
+        _caution_box(caution),
+        _status_box(summary),
+        _objective_section(summary),
+        _flight_section(summary),
+        _limits_section(summary),
+        _verification_section(summary),
+        _stages_section(summary),
+        _losses_section(summary),
+        _solver_section(summary),
+        _peaks_section(summary),
+        _phases_section(summary),
+        _events_section(summary),
+        _other_section(summary),
+        _plots_section([Path(p) for p in plots]),
+        _caution_box(caution),
+        "</body>",
+        "</html>",
+    ]
+    return "\n".join(p for p in parts if p) + "\n"
+
+
+def write_report(result_or_summary, out_dir, *, plots=None) -> Path:
+    """Write ``report.html``: the summary, tables and embedded plots in one file.
+
+    Parameters
+    ----------
+    result_or_summary : ascentplan.pipeline.Result or dict
+        A solve result, or a summary dict as written to summary.json.
+    out_dir : str or Path
+        Folder to write into; created if missing.
+    plots : sequence of path-like, optional
+        PNG files to embed, in this order. By default the PNGs already in ``out_dir``
+        (overview first); if there are none and a result was given, its plots are
+        drawn into ``out_dir`` first (:func:`ascentplan.plots.plot_result`).
+
+    Returns
+    -------
+    Path
+        The report written.
+    """
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    if isinstance(result_or_summary, dict):
+        summary, result = result_or_summary, None
+    else:
+        summary, result = result_or_summary.summary(), result_or_summary
+    if plots is None:
+        plots = _folder_plots(out)
+        if not plots and result is not None:
+            from .plots import plot_result
+
+            plots = sorted(plot_result(result, out), key=_plot_sort_key)
+    path = out / REPORT_NAME
+    path.write_text(render_html(summary, plots), encoding="utf-8")
+    return path
+
+
+def render_report_from_folder(folder) -> Path:
+    """Render ``report.html`` in a results folder from its summary.json and PNG files.
+
+    No re-solve: the report shows what the folder holds.
+
+    Parameters
+    ----------
+    folder : str or Path
+        A results folder holding ``summary.json``.
+
+    Returns
+    -------
+    Path
+        The report written into ``folder``.
+
+    Raises
+    ------
+    FileNotFoundError
+        If the folder has no summary.json.
+    ValueError
+        If summary.json is not a JSON object.
+    """
+    folder = Path(folder)
+    source = folder / "summary.json"
+    if not source.is_file():
+        raise FileNotFoundError(f"{source}: no summary.json in this folder; "
+                                "a results folder from 'solve' or 'simulate' is expected")
+    try:
+        summary = json.loads(source.read_text(encoding="utf-8"))
+    except json.JSONDecodeError as exc:
+        raise ValueError(f"{source}: not valid JSON ({exc})") from exc
+    if not isinstance(summary, dict):
+        raise ValueError(f"{source}: expected a JSON object at the top level, got "
+                         f"{type(summary).__name__}")
+    return write_report(summary, folder, plots=_folder_plots(folder))

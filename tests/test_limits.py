@@ -1,0 +1,67 @@
+"""Load limits: an active dynamic-pressure limit verified by replay, shadow prices
+against finite differences, monotonicity in the bound, and the infeasible case."""
+
+from __future__ import annotations
+
+import pytest
+
+from ascentplan.pipeline import solve
+
+from cases import vertical_q_problem
+
+Q_MAX = 30e3  # [Pa]
+
+
+@pytest.fixture(scope="module")
+def free_result():
+    return solve(vertical_q_problem(max_q=None))
+
+
+@pytest.fixture(scope="module")
+def limited_result():
+    return solve(vertical_q_problem(max_q=Q_MAX))
+
+
+def test_active_dynamic_pressure_limit_is_verified(free_result, limited_result):
+    # the unconstrained optimum flies well above the bound, so the limit is active
+    q_free = max(free_result.trajectory.quantities["dynamic_pressure"])
+    assert q_free > 1.3 * Q_MAX
+    r = limited_result
+    assert r.status == "optimal", r.message
+    (lim,) = r.limits()
+    assert lim["active"]
+    # DESIGN section 5 / optimiser tolerances: replayed peak within bound + 0.5 %, burnout
+    # speed within max(0.5 m/s, 0.05 %)
+    assert lim["peak"] * 1000 <= Q_MAX * 1.005
+    speed = r.burnout()["speed_m_s"]
+    assert abs(r.verification.burnout_speed_difference_m_s) <= max(0.5, 5e-4 * speed)
+    assert r.objective_value < free_result.objective_value
+
+
+def test_shadow_price_matches_finite_difference(limited_result):
+    # envelope theorem (common practice): d objective / d bound from the multipliers equals a
+    # central difference of two re-solves, within 2 %
+    base = vertical_q_problem(max_q=Q_MAX)
+    dq = 0.01 * Q_MAX
+    up = solve(base.with_limits(max_dynamic_pressure=Q_MAX + dq), warm_start=limited_result)
+    down = solve(base.with_limits(max_dynamic_pressure=Q_MAX - dq), warm_start=limited_result)
+    assert up.status == down.status == "optimal"
+    fd = (up.solution.objective - down.solution.objective) / (2 * dq)  # m/s per Pa
+    price = limited_result.solution.shadow_prices["max_dynamic_pressure"]
+    assert price > 0
+    assert price == pytest.approx(fd, rel=0.02)
+    (lim,) = limited_result.limits()
+    assert lim["shadow_price"] == pytest.approx(price * 1000.0, rel=1e-12)  # per kPa
+
+
+def test_relaxing_never_lowers_the_optimum(free_result, limited_result):
+    # a larger feasible set cannot have a worse optimum (common practice)
+    base = vertical_q_problem(max_q=Q_MAX)
+    previous = limited_result.solution.objective
+    for q in (40e3, 60e3, 1e6):
+        r = solve(base.with_limits(max_dynamic_pressure=q), warm_start=limited_result)
+        assert r.status == "optimal"
+        assert r.solution.objective >= previous - 1e-6 * abs(previous)
+        previous = r.solution.objective
+    # a bound far above the peak reproduces the unconstrained optimum
+    assert previous == pytest.approx(free_result.solution.objective, rel=1e-6)

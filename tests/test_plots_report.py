@@ -1,0 +1,327 @@
+"""Plots and the HTML report: files, bound and event lines, node overlays, report content."""
+
+from __future__ import annotations
+
+import base64
+import html
+import json
+import re
+import shutil
+import struct
+from dataclasses import replace
+from html.parser import HTMLParser
+
+import numpy as np
+import pytest
+
+from ascentplan import outputs
+from ascentplan.aero import ConstantDrag
+from ascentplan.atmosphere import ExponentialAtmosphere
+from ascentplan.cautions import CAUTION
+from ascentplan.constants import G0, PLANETS
+from ascentplan.gravity import InverseSquareGravity
+from ascentplan.pipeline import solve
+from ascentplan.plots import DPI, _overview_figure, _panel_figure, plot_trajectory, result_nodes
+from ascentplan.problem import (Aerodynamics, Launch, Limits, Mesh, Planet, Problem, Stage,
+                                Target, Vehicle, phase_plan)
+from ascentplan.report import render_report_from_folder, write_report
+from ascentplan.simulate import simulate
+
+PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
+EARTH = Planet("earth", **PLANETS["earth"])
+
+
+def _vertical_problem(limits: Limits) -> Problem:
+    stage = Stage("booster", propellant_mass=900.0, dry_mass=150.0, thrust_vacuum=30e3,
+                  exhaust_speed=250.0 * G0, throttle_min=0.4, throttle_max=1.0)
+    return Problem(name="sounding-one-stage", dynamics="vertical",
+                   vehicle=Vehicle(100.0, (stage,)), planet=EARTH,
+                   atmosphere=ExponentialAtmosphere(),
+                   gravity=InverseSquareGravity(EARTH.gravitational_parameter),
+                   aerodynamics=Aerodynamics(0.2, ConstantDrag(0.3)), limits=limits,
+                   mesh=Mesh(nodes_per_phase=20))
+
+
+def _planar_problem(limits: Limits) -> Problem:
+    first = Stage("first", 24e3, 2.4e3, 520e3, 296.0 * G0, nozzle_exit_area=0.6,
+                  throttle_min=0.5)
+    second = Stage("second", 6e3, 0.7e3, 110e3, 336.0 * G0)
+    return Problem(name="demo-two-stage", dynamics="planar",
+                   vehicle=Vehicle(500.0, (first, second)), planet=EARTH,
+                   atmosphere=ExponentialAtmosphere(),
+                   gravity=InverseSquareGravity(EARTH.gravitational_parameter),
+                   aerodynamics=Aerodynamics(3.0, ConstantDrag(0.3)),
+                   launch=Launch(vertical_rise=8.0, pitch_over=np.radians(1.0)),
+                   limits=limits, target=Target(flight_path_angle=0.0),
+                   mesh=Mesh(nodes_per_phase=20))
+
+
+PLANAR_LIMITS = Limits(max_dynamic_pressure=25e3, max_axial_acceleration=5.0,
+                       max_q_alpha=200e3 * np.pi / 180.0, min_altitude=0.0)
+
+
+@pytest.fixture(scope="module")
+def vertical_flight():
+    problem = _vertical_problem(Limits(max_dynamic_pressure=30e3, max_axial_acceleration=4.0))
+    return problem, simulate(problem)
+
+
+@pytest.fixture(scope="module")
+def planar_flight():
+    problem = _planar_problem(PLANAR_LIMITS)
+    return problem, simulate(problem, coast_to_apogee=False)
+
+
+@pytest.fixture(scope="module")
+def planar_result():
+    problem = _planar_problem(Limits(max_dynamic_pressure=25e3, max_axial_acceleration=5.0))
+    result = solve(problem)
+    assert result.status == "optimal", result.message
+    return result
+
+
+@pytest.fixture(scope="module")
+def vertical_plots(vertical_flight, tmp_path_factory):
+    problem, traj = vertical_flight
+    folder = tmp_path_factory.mktemp("vertical")
+    return folder, plot_trajectory(problem, traj, folder)
+
+
+@pytest.fixture(scope="module")
+def result_folder(planar_result, tmp_path_factory):
+    """A results folder whose report was written from the result alone (plots drawn)."""
+    folder = tmp_path_factory.mktemp("solved")
+    return folder, write_report(planar_result, folder)
+
+
+def _png_size(path) -> tuple[int, int]:
+    data = path.read_bytes()
+    assert data[:8] == PNG_SIGNATURE, f"{path.name} is not a PNG"
+    assert data[12:16] == b"IHDR"
+    return struct.unpack(">II", data[16:24])
+
+
+def _check_pngs(paths, expected_stems):
+    assert [p.stem for p in paths] == expected_stems
+    for path in paths:
+        assert path.is_file()
+        # a plot with axes, curves and text compresses to well over 10 kB at 150 dpi
+        assert path.stat().st_size > 10_000, path.name
+        width, height = _png_size(path)
+        if not path.stem.endswith("overview"):
+            assert (width, height) == (7 * DPI, round(4.2 * DPI)), path.name
+
+
+def _lines_by_gid(ax, gid):
+    return [line for line in ax.get_lines() if line.get_gid() == gid]
+
+
+def test_vertical_plot_files(vertical_plots):
+    _folder, paths = vertical_plots
+    _check_pngs(paths, ["altitude", "speed", "dynamic_pressure", "axial_acceleration",
+                        "throttle", "mass", "overview"])
+    # six panels: a 2x3 grid of 5 x 3.4 inch cells plus room for the legend
+    assert _png_size(paths[-1]) == (15 * DPI, round((2 * 3.4 + 0.6) * DPI))
+
+
+def test_planar_plot_files_with_prefix(planar_flight, tmp_path):
+    problem, traj = planar_flight
+    paths = plot_trajectory(problem, traj, tmp_path, prefix="case1_")
+    assert all(p.name.startswith("case1_") for p in paths)
+    _check_pngs(paths, [f"case1_{s}" for s in ("altitude", "speed", "dynamic_pressure",
+                                        "axial_acceleration", "q_alpha", "throttle",
+                              "pitch", "mass", "overview")])
+    # eight panels need a 3x3 grid; the empty cell is removed
+    fig = _overview_figure(problem, traj)
+    assert len(fig.axes) == 8
+
+
+def test_dynamic_pressure_bound_line(vertical_flight):
+    problem, traj = vertical_flight
+    ax = _panel_figure(problem, traj, "dynamic_pressure").axes[0]
+    bounds = _lines_by_gid(ax, "bound")
+    assert len(bounds) == 1
+    np.testing.assert_allclose(bounds[0].get_ydata(), 30.0)  # 30 kPa
+    assert "30 kPa" in bounds[0].get_label()
+    replay = [line for line in ax.get_lines() if line.get_label() == "replay"][0]
+    np.testing.assert_allclose(np.max(replay.get_ydata()),
+                               np.max(traj.quantities["dynamic_pressure"]) / 1000.0)
+    # without the limit there is no bound line
+    free = replace(problem, limits=Limits())
+    assert _lines_by_gid(_panel_figure(free, traj, "dynamic_pressure").axes[0], "bound") == []
+
+
+def test_every_imposed_limit_is_drawn(planar_flight):
+    problem, traj = planar_flight
+    expected = {"dynamic_pressure": 25.0, "axial_acceleration": 5.0, "q_alpha": 200.0,
+                "altitude": 0.0}
+    for key, value in expected.items():
+        bounds = _lines_by_gid(_panel_figure(problem, traj, key).axes[0], "bound")
+        assert len(bounds) == 1, key
+        np.testing.assert_allclose(bounds[0].get_ydata(), value, atol=1e-9)
+    for key in ("speed", "throttle", "pitch", "mass"):
+        assert _lines_by_gid(_panel_figure(problem, traj, key).axes[0], "bound") == []
+
+
+def test_events_marked_and_labelled(planar_flight):
+    problem, traj = planar_flight
+    ax = _panel_figure(problem, traj, "mass").axes[0]
+    staging = [e["time"] for e in traj.events if e["kind"] == "staging"]
+    burnouts = [e["time"] for e in traj.events if e["kind"] == "burnout"]
+    assert len(staging) == 1 and len(burnouts) == 2
+    xs = sorted(line.get_xdata()[0] for line in _lines_by_gid(ax, "event"))
+    # first-stage burnout and staging coincide: one line for both, one for final burnout
+    np.testing.assert_allclose(xs, [staging[0], burnouts[1]])
+    labels = [t.get_text() for t in ax.texts]
+    assert "burnout + staging (first)" in labels
+    assert "burnout (second)" in labels
+
+
+def test_replay_passes_through_optimiser_nodes(planar_result):
+    result = planar_result
+    problem, traj = result.solved_problem, result.trajectory
+    nodes = result_nodes(result)
+    assert len(nodes) == len(phase_plan(problem))
+    checks = {"throttle": 1e-6, "pitch": 1e-4, "mass": 1e-3, "dynamic_pressure": 0.05}
+    for key, tol in checks.items():
+        ax = _panel_figure(problem, traj, key, nodes).axes[0]
+        markers = [line for line in ax.get_lines() if line.get_marker() == "o"]
+        assert len(markers) == len(nodes), key
+        for k, line in enumerate(markers):
+            mask = traj.phase == k
+            t_nodes = np.asarray(line.get_xdata())
+            np.testing.assert_allclose(t_nodes, result.solution.times[k])
+            replay = [ln for ln in ax.get_lines() if ln.get_label() in ("replay",)][0]
+            on_replay = np.interp(t_nodes, traj.time[mask],
+                                  np.asarray(replay.get_ydata())[mask])
+            # the same quantity in the same plot units: the replay meets every node
+            np.testing.assert_allclose(line.get_ydata(), on_replay, atol=tol,
+                                       err_msg=f"{key}, phase {k}")
+
+
+class _StrictParser(HTMLParser):
+    """Collects tags and fails on an end tag that does not close the open element."""
+
+    VOID = {"meta", "img", "br", "hr", "link", "input", "col", "wbr"}
+
+    def __init__(self):
+        super().__init__(convert_charrefs=True)
+        self.stack, self.errors, self.images, self.text = [], [], [], []
+
+    def handle_starttag(self, tag, attrs):
+        if tag == "img":
+            self.images.append(dict(attrs))
+        if tag not in self.VOID:
+            self.stack.append(tag)
+
+    def handle_endtag(self, tag):
+        if not self.stack or self.stack[-1] != tag:
+            self.errors.append(f"</{tag}> closes {self.stack[-1:] or 'nothing'}")
+        else:
+            self.stack.pop()
+
+    def handle_data(self, data):
+        self.text.append(data)
+
+
+def _parse(page: str) -> _StrictParser:
+    parser = _StrictParser()
+    parser.feed(page)
+    parser.close()
+    assert parser.errors == []
+    assert parser.stack == [], f"unclosed: {parser.stack}"
+    return parser
+
+
+def _check_images(parser, count):
+    assert len(parser.images) == count
+    for img in parser.images:
+        src = img["src"]
+        assert src.startswith("data:image/png;base64,")
+        assert base64.b64decode(src.split(",", 1)[1])[:8] == PNG_SIGNATURE
+        assert img.get("alt")
+
+
+def test_report_from_result(planar_result, result_folder):
+    result = planar_result
+    folder, path = result_folder
+    assert path == folder / "report.html"
+    # no plots were in the folder, so the report drew them with plot_result
+    order = ("altitude", "speed", "dynamic_pressure", "axial_acceleration", "throttle",
+             "pitch", "mass", "overview")
+    _check_pngs(sorted(folder.glob("*.png"), key=lambda p: order.index(p.stem)), list(order))
+    page = path.read_text(encoding="utf-8")
+    parser = _parse(page)
+    _check_images(parser, 8)
+    text = " ".join(parser.text)
+    assert text.count(CAUTION) == 2  # top and bottom
+    assert "Optimal and verified" in text and "optimal" in text
+    for name in ("max_dynamic_pressure", "max_axial_acceleration"):
+        assert name in text
+    summary = result.summary()
+    for lim in summary["limits"]:
+        assert lim["shadow_price_unit"] in text
+    assert f"{summary['objective']['value']:,.3f}" in text
+    # self-contained: nothing fetched from elsewhere
+    assert not re.search(r"<(script|link)\b", page)
+    assert not re.search(r"(src|href)=\"(?!data:)", page)
+
+
+def test_render_report_from_folder(planar_result, result_folder, tmp_path):
+    for png in result_folder[0].glob("*.png"):
+        shutil.copy(png, tmp_path)
+    summary = planar_result.summary()
+    # hostile text must come out as text, never as markup
+    summary["problem"] = "demo <b>&</b> two"
+    summary["message"] = "<script>alert(1)</script>"
+    summary["sweep_point"] = {"max_dynamic_pressure_kPa": 25.0}
+    (tmp_path / "summary.json").write_text(json.dumps(summary), encoding="utf-8")
+    path = render_report_from_folder(tmp_path)
+    page = path.read_text(encoding="utf-8")
+    parser = _parse(page)
+    _check_images(parser, len(list(tmp_path.glob("*.png"))))
+    assert "<script>" not in page and html.escape("<script>alert(1)</script>") in page
+    assert "<h1>demo &lt;b&gt;&amp;&lt;/b&gt; two</h1>" in page
+    text = " ".join(parser.text)
+    assert "max_dynamic_pressure_kPa" in text  # unknown keys are shown, not dropped
+    # the overview comes first
+    assert parser.images[0]["alt"] == "overview"
+
+
+def test_report_never_shows_unverified_as_good(planar_result, tmp_path):
+    summary = planar_result.summary()
+    summary["status"] = "not_verified"
+    summary["verification"]["passed"] = False
+    summary["verification"]["reasons"] = ["burnout speed differs by 3.1 m/s"]
+    page = write_report(summary, tmp_path, plots=[]).read_text(encoding="utf-8")
+    _parse(page)
+    assert 'class="status bad"' in page and "NOT verified" in page
+    assert "burnout speed differs by 3.1 m/s" in page
+    # an inconsistent summary (optimal, yet the check failed) is not shown as verified
+    summary["status"] = "optimal"
+    page = write_report(summary, tmp_path, plots=[]).read_text(encoding="utf-8")
+    assert 'class="status good"' not in page and "NOT verified" in page
+
+
+def test_report_from_simulation_summary(vertical_flight, vertical_plots, tmp_path):
+    problem, traj = vertical_flight
+    for png in vertical_plots[1]:
+        shutil.copy(png, tmp_path)
+    paths = vertical_plots[1]
+    summary = outputs.simulation_summary(problem, traj)
+    outputs.write_json(summary, tmp_path / "summary.json")
+    page = render_report_from_folder(tmp_path).read_text(encoding="utf-8")
+    parser = _parse(page)
+    _check_images(parser, len(paths))
+    text = " ".join(parser.text)
+    assert text.count(CAUTION) == 2
+    assert "Forward simulation" in text
+    for heading in ("Peaks", "Events", "Velocity-loss budget"):
+        assert heading in text
+    peak_q = summary["peaks"]["dynamic_pressure"]["value_Pa"] / 1000.0
+    assert f"{peak_q:,.3f}" in text
+
+
+def test_render_report_needs_summary(tmp_path):
+    with pytest.raises(FileNotFoundError, match="summary.json"):
+        render_report_from_folder(tmp_path)
