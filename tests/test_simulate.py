@@ -318,7 +318,15 @@ def test_time_schedule_with_flameout_of_a_phase_schedule():
     # the same flight from a time schedule (held throttle) stages on depletion
     same = simulate(_problem("vertical", [_simmons_stage()], gravity=ConstantGravity(G)),
                     TimeSchedule((0.0, 10.0), (1.0, 1.0)), coast_to_apogee=False)
-    np.testing.assert_allclose(same.burnout_state(), traj.burnout_state(), rtol=1e-9)
+    np.testing.assert_allclose(same.burnout_state(), traj.state_at(80.0), rtol=1e-9)
+    # a timed phase that runs dry coasts, engine off, to its scheduled end
+    assert traj.burnout_time() == pytest.approx(100.0, rel=1e-12)
+    after = traj.time > 80.0 + 1e-6
+    np.testing.assert_allclose(traj.state[2, after], 200.0, rtol=1e-12)
+    assert np.all(traj.controls[0, after] == 0.0)
+    # Simmons (REFERENCES.md): after burnout, v falls by g per second
+    v_b = traj.state_at(80.0)[1]
+    assert traj.burnout_state()[1] == pytest.approx(v_b - G * 20.0, rel=1e-9)
 
 
 def test_schedule_csv_round_trip_and_errors(tmp_path):

@@ -40,15 +40,9 @@ def _cmd_check(args) -> int:
 
 def _cmd_simulate(args) -> int:
     problem = load_problem(args.file)
-    try:
-        # the simulator is imported only here so that ``check`` never depends on it
-        from .simulate import simulate_command
-    except ModuleNotFoundError as exc:
-        if exc.name != f"{__package__}.simulate":
-            raise
-        print("ascentplan simulate: the forward simulator is not installed with this "
-              "version", file=sys.stderr)
-        return 1
+    # imported here so that ``check`` stays quick
+    from .simulate import simulate_command
+
     out = Path(args.out) if args.out is not None else Path("results") / problem.name
     schedule = Path(args.schedule) if args.schedule is not None else None
     status = simulate_command(problem, out=out, schedule=schedule)
@@ -78,8 +72,97 @@ def _add_simulate(subparsers) -> None:
     p.set_defaults(handler=_cmd_simulate)
 
 
+#: exit status of ``solve`` for each result status
+SOLVE_EXIT = {"optimal": 0, "not_verified": 1, "infeasible": 3, "failed": 4}
+
+
+def _cmd_solve(args) -> int:
+    problem = load_problem(args.file)
+    from .pipeline import format_result, solve, write_outputs
+    from .split import solve_with_split_comparison
+
+    if problem.mass_split is not None:
+        result = solve_with_split_comparison(problem)
+    else:
+        result = solve(problem)
+    out = Path(args.out) if args.out is not None else Path("results") / problem.name
+    write_outputs(result, out)
+    print(format_result(result))
+    print(f"results written to {out}/")
+    return SOLVE_EXIT[result.status]
+
+
+def _add_solve(subparsers) -> None:
+    p = subparsers.add_parser(
+        "solve", help="optimise the throttle and steering schedule (and stage masses)",
+        description="Optimise the schedule by direct collocation, re-fly it by forward "
+                    "integration and report it as verified only when both agree. Exit status "
+                    "0 optimal and verified, 1 optimal on the mesh but not verified, "
+                    "2 bad problem file, 3 infeasible, 4 solver failure.")
+    p.add_argument("file", metavar="FILE", help="YAML problem file")
+    p.add_argument("--out", metavar="DIR", default=None,
+                   help="results folder (default: results/<problem name>/)")
+    p.set_defaults(handler=_cmd_solve)
+
+
+def _cmd_split(args) -> int:
+    problem = load_problem(args.file)
+    from .cautions import CAUTION
+    from .staging import StagingError, format_split, split_for_vehicle
+
+    hold = args.hold or (problem.mass_split.hold if problem.mass_split else "liftoff_mass")
+    try:
+        split = split_for_vehicle(problem.vehicle, delta_v=args.delta_v, hold=hold)
+    except StagingError as exc:
+        print(f"{args.file}: {exc}", file=sys.stderr)
+        return 3
+    print(f"Rocket-equation stage split of {problem.name} ({hold.replace('_', ' ')} held; "
+          "no gravity, drag or limits)")
+    print(format_split(split))
+    print(CAUTION)
+    return 0
+
+
+def _add_split(subparsers) -> None:
+    p = subparsers.add_parser(
+        "split", help="optimal stage mass split by the rocket equation (no trajectory)",
+        description="The Lagrange-multiplier optimum split of the stage masses for the "
+                    "vehicle in FILE: with the liftoff mass held (maximum ideal velocity) or "
+                    "the payload held (minimum liftoff mass for --delta-v). Exit status 3 if "
+                    "no split can reach the velocity.")
+    p.add_argument("file", metavar="FILE", help="YAML problem file")
+    p.add_argument("--hold", choices=("liftoff_mass", "payload"), default=None,
+                   help="what stays fixed (default: the file's mass_split.hold, else "
+                        "liftoff_mass)")
+    p.add_argument("--delta-v", type=float, default=None, metavar="M_S",
+                   help="required ideal velocity increment [m/s] with --hold payload "
+                        "(default: the vehicle's own as written)")
+    p.set_defaults(handler=_cmd_split)
+
+
+def _cmd_report(args) -> int:
+    from .report import render_report_from_folder
+
+    try:
+        path = render_report_from_folder(Path(args.folder))
+    except (FileNotFoundError, ValueError) as exc:
+        print(f"{args.folder}: {exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    print(f"report written to {path}")
+    return 0
+
+
+def _add_report(subparsers) -> None:
+    p = subparsers.add_parser(
+        "report", help="render report.html from an existing results folder",
+        description="Render a self-contained HTML report from the summary.json and plots in "
+                    "a results folder written by 'solve'.")
+    p.add_argument("folder", metavar="DIR", help="results folder")
+    p.set_defaults(handler=_cmd_report)
+
+
 #: each verb adds its own parser; a new verb is one more function here
-_VERBS = (_add_check, _add_simulate)
+_VERBS = (_add_check, _add_simulate, _add_solve, _add_split, _add_report)
 
 
 def build_parser() -> argparse.ArgumentParser:

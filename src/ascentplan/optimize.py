@@ -48,6 +48,13 @@ WARM_START_OPTIONS = {
 }
 
 
+def structural_ratio(stage) -> float:
+    """dry / (dry + propellant) of a stage: as given, else as its masses are written."""
+    if stage.structural_ratio is not None:
+        return float(stage.structural_ratio)
+    return stage.dry_mass / (stage.dry_mass + stage.propellant_mass)
+
+
 def nodes_for_phase(phase: Phase, nodes_per_phase: int) -> int:
     """Mesh nodes of a phase: short fixed segments get fewer."""
     if phase.kind == "rise":
@@ -60,7 +67,7 @@ def nodes_for_phase(phase: Phase, nodes_per_phase: int) -> int:
 def structure_key(problem: Problem) -> tuple:
     """What fixes the NLP's structure: everything except limit values and masses."""
     stages = tuple(
-        (s.thrust_vacuum, s.exhaust_speed, s.nozzle_exit_area, s.throttle_min, s.throttle_max,
+        (s.exhaust_speed, s.nozzle_exit_area, s.throttle_min, s.throttle_max,
          s.max_throttle_rate, s.coast_after, s.structural_ratio, s.thrust_to_weight,
          s.propellant_min, s.propellant_max)
         for s in problem.vehicle.stages)
@@ -158,18 +165,22 @@ class AscentNLP:
             self._index[name] = (start, shape)
             return sym
 
-        # parameters: limit bounds, then masses, then the held liftoff mass
+        # parameters: limit bounds; payload; per stage propellant, dry mass (in a
+        # stage-mass split: the structural ratio) and vacuum thrust; the held liftoff mass
         n_lim = len(self.limit_names)
-        P = self._sym.sym("p", n_lim + 1 + 2 * self.n_stages + 1)
+        ns = self.n_stages
+        P = self._sym.sym("p", n_lim + 1 + 3 * ns + 1)
         self.n_params = P.shape[0]
         lim_par = {name: P[i] for i, name in enumerate(self.limit_names)}
         payload_par = P[n_lim]
-        prop_par = [P[n_lim + 1 + i] for i in range(self.n_stages)]
-        dry_par = [P[n_lim + 1 + self.n_stages + i] for i in range(self.n_stages)]
-        liftoff_par = P[n_lim + 1 + 2 * self.n_stages]
+        prop_par = [P[n_lim + 1 + i] for i in range(ns)]
+        dry_par = [P[n_lim + 1 + ns + i] for i in range(ns)]
+        thrust_par = [P[n_lim + 1 + 2 * ns + i] for i in range(ns)]
+        liftoff_par = P[n_lim + 1 + 3 * ns]
 
         # mass variables
         split = p.mass_split is not None
+        self.split = split
         ms = self.mass_scale
         payload_free = p.objective == "max_payload"
         if payload_free:
@@ -177,32 +188,37 @@ class AscentNLP:
             payload = pay_s * ms
         else:
             payload = payload_par
-        if split:
+        if split and p.mass_split.proportional:
+            # every stage scaled by one factor: the rocket-equation split's proportions kept
+            scale_s = add("split_scale", (1, 1), 0.05, 20.0)
+            propellant = [scale_s * prop_par[i] for i in range(ns)]
+        elif split:
             lo, hi = [], []
-            for s in stages:
-                lo.append((s.propellant_min if s.propellant_min is not None else 0.02 * s.propellant_mass) / ms)
-                hi.append((s.propellant_max if s.propellant_max is not None else 20.0 * s.propellant_mass) / ms)
-            prop_s = add("propellant", (self.n_stages, 1), np.array(lo), np.array(hi))
-            propellant = [prop_s[i] * ms for i in range(self.n_stages)]
+            for st in stages:
+                lo.append(st.propellant_min if st.propellant_min is not None
+                          else 0.02 * st.propellant_mass)
+                hi.append(st.propellant_max if st.propellant_max is not None
+                          else 20.0 * st.propellant_mass)
+            prop_s = add("propellant", (ns, 1), np.array(lo) / ms, np.array(hi) / ms)
+            propellant = [prop_s[i] * ms for i in range(ns)]
         else:
             propellant = prop_par
-        dry = []
-        for i, s in enumerate(stages):
-            if split and s.structural_ratio is not None:
-                dry.append(s.structural_ratio / (1.0 - s.structural_ratio) * propellant[i])
-            else:
-                dry.append(dry_par[i])
+        if split:
+            # the dry mass follows the propellant at the stage's structural ratio
+            dry = [dry_par[i] / (1.0 - dry_par[i]) * propellant[i] for i in range(ns)]
+        else:
+            dry = list(dry_par)
         mass_above = []
-        for i in range(self.n_stages):
-            mass_above.append(payload + sum(propellant[j] + dry[j] for j in range(i + 1, self.n_stages)))
-        ignition = [mass_above[i] + propellant[i] + dry[i] for i in range(self.n_stages)]
-        burnout = [mass_above[i] + dry[i] for i in range(self.n_stages)]
+        for i in range(ns):
+            mass_above.append(payload + sum(propellant[j] + dry[j] for j in range(i + 1, ns)))
+        ignition = [mass_above[i] + propellant[i] + dry[i] for i in range(ns)]
+        burnout = [mass_above[i] + dry[i] for i in range(ns)]
         thrust = []
-        for i, s in enumerate(stages):
-            if split and s.thrust_to_weight is not None:
-                thrust.append(s.thrust_to_weight * G0 * ignition[i])
+        for i, st in enumerate(stages):
+            if split and st.thrust_to_weight is not None:
+                thrust.append(st.thrust_to_weight * G0 * ignition[i])
             else:
-                thrust.append(float(s.thrust_vacuum))
+                thrust.append(thrust_par[i])
         self._mass_exprs = dict(payload=payload, propellant=propellant, dry=dry,
                                 ignition=ignition, thrust=thrust)
 
@@ -433,12 +449,16 @@ class AscentNLP:
 
     # --------------------------------------------------------------- numerics
     def parameter_vector(self, problem: Problem) -> np.ndarray:
-        """NLP parameters (limit bounds, masses) for a problem of this structure."""
+        """NLP parameters (limit bounds, masses, thrusts) for a problem of this structure."""
         vals = [float(getattr(problem.limits, n)) for n in self.limit_names]
         veh = problem.vehicle
         vals.append(veh.payload_mass)
         vals += [s.propellant_mass for s in veh.stages]
-        vals += [s.dry_mass for s in veh.stages]
+        if self.split:
+            vals += [structural_ratio(s) for s in veh.stages]
+        else:
+            vals += [s.dry_mass for s in veh.stages]
+        vals += [s.thrust_vacuum for s in veh.stages]
         held = veh.liftoff_mass
         if problem.mass_split is not None and problem.mass_split.liftoff_mass is not None:
             held = problem.mass_split.liftoff_mass
@@ -450,6 +470,8 @@ class AscentNLP:
         parts = []
         if "payload" in self._index:
             parts.append(np.array([guess.payload_mass / self.mass_scale]))
+        if "split_scale" in self._index:
+            parts.append(np.array([1.0]))
         if "propellant" in self._index:
             parts.append(np.asarray(guess.propellant, float) / self.mass_scale)
         for j in range(len(self.phases)):
@@ -482,7 +504,9 @@ class AscentNLP:
         w0 = self.pack_guess(guess)
         args = dict(x0=w0, p=pvec, lbx=self.lbw, ubx=self.ubw, lbg=self.lbg, ubg=self.ubg)
         solver = self.solver
-        if warm and guess.multipliers is not None:
+        if (warm and guess.multipliers is not None
+                and guess.multipliers["lam_x"].size == w0.size
+                and guess.multipliers["lam_g"].size == self.lbg.size):
             if self.warm_solver is None:
                 self.warm_solver = ca.nlpsol("ascent_warm", "ipopt", self._nlp,
                                              {**IPOPT_OPTIONS, **WARM_START_OPTIONS})

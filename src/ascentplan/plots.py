@@ -346,8 +346,11 @@ def plot_result(result, out_dir, *, prefix: str = "") -> list[Path]:
     Returns
     -------
     list of Path
-        The files written, overview last (see :func:`plot_trajectory`).
+        The files written, overview last (see :func:`plot_trajectory`); empty when the
+        result has no replay.
     """
+    if result.trajectory is None:
+        return []
     # the replay flew the optimised masses, so the node quantities must use them too
     problem = getattr(result, "solved_problem", None) or result.problem
     return plot_trajectory(problem, result.trajectory, out_dir, nodes=result_nodes(result),

@@ -110,15 +110,23 @@ class Vehicle:
         return self.mass_above(index) + self.stages[index].dry_mass
 
     def with_propellant(self, propellant: list[float], payload_mass: float | None = None):
-        """A copy with new propellant masses; dry masses follow structural ratios."""
+        """A copy with new propellant masses; dry masses follow the structural ratios
+        (as given, else as the masses are written), thrusts a given thrust-to-weight."""
         stages = []
         for s, mp in zip(self.stages, propellant):
-            dry = s.dry_mass
-            if s.structural_ratio is not None:
-                dry = s.structural_ratio / (1.0 - s.structural_ratio) * mp
+            eps = s.structural_ratio
+            if eps is None:
+                eps = s.dry_mass / (s.dry_mass + s.propellant_mass)
+            dry = eps / (1.0 - eps) * mp
             stages.append(replace(s, propellant_mass=float(mp), dry_mass=float(dry)))
         payload = self.payload_mass if payload_mass is None else float(payload_mass)
-        return Vehicle(payload_mass=payload, stages=tuple(stages))
+        vehicle = Vehicle(payload_mass=payload, stages=tuple(stages))
+        scaled = []
+        for i, s in enumerate(vehicle.stages):
+            if s.thrust_to_weight is not None:
+                s = replace(s, thrust_vacuum=s.thrust_to_weight * G0 * vehicle.ignition_mass(i))
+            scaled.append(s)
+        return Vehicle(payload_mass=payload, stages=tuple(scaled))
 
 
 @dataclass(frozen=True)
@@ -208,6 +216,8 @@ class MassSplit:
 
     hold: str = "liftoff_mass"
     liftoff_mass: float | None = None  # [kg]; default: the vehicle's as written
+    #: internal: scale all stages by one factor (keeps a given split's proportions)
+    proportional: bool = False
 
 
 @dataclass(frozen=True)

@@ -33,8 +33,6 @@ LOSS_QUANTITIES = {
 KICK_DURATION = 5.0
 #: uniform samples per phase added to the solver steps
 SAMPLES_PER_PHASE = 400
-#: relative slack below the burnout mass before a burn counts as run dry
-DEPLETION_SLACK = 1e-6
 #: shortest cap on a coast to apogee and on a burn that ends on depletion [s]
 FLIGHT_CAP = 3.0 * 3600.0
 #: longest cap on a coast to apogee, whatever the orbit [s]
@@ -666,6 +664,7 @@ class _PhaseRun:
     steps: list = field(default_factory=list)
     rules: list = field(default_factory=list)
     apogees: list = field(default_factory=list)  # (time, state) of apogees passed
+    flameout_time: float | None = None  # a timed burn that ran dry before its end
 
     def solution(self):
         if not self.interpolants:
@@ -707,10 +706,7 @@ def _fly_phase(problem, law, rates, k, phase, t0, y0, rtol, atol, max_step, exha
     impact.terminal, impact.direction = True, -1
     base = [("impact", impact)]
     if phase.powered:
-        # A schedule that burns exactly the propellant (an optimiser's, at its mass bound)
-        # reaches the burnout mass to within solver tolerance; one part in a million of
-        # slack (a gram per tonne) keeps rounding from cutting the rest of the phase short.
-        m_burnout = problem.vehicle.burnout_mass(phase.stage) * (1.0 - DEPLETION_SLACK)
+        m_burnout = problem.vehicle.burnout_mass(phase.stage)
 
         def depletion(t, y):
             return y[n - 1] - m_burnout
@@ -741,8 +737,11 @@ def _fly_phase(problem, law, rates, k, phase, t0, y0, rtol, atol, max_step, exha
         fun = rates.bind(prop, rule)
         cuts = [b for b in breaks if t < b < seg_end] + [seg_end]
         switched = False
-        for tb in cuts:
+        i_cut = 0
+        while i_cut < len(cuts):
+            tb = cuts[i_cut]
             if tb <= t:
+                i_cut += 1
                 continue
             kw = dict(options)
             if step is not None:
@@ -766,8 +765,22 @@ def _fly_phase(problem, law, rates, k, phase, t0, y0, rtol, atol, max_step, exha
                 if name == "switch":
                     switched = True
                     break
+                if name == "depletion" and not open_ended and (
+                        t_end - t > _FLAMEOUT_FRACTION * max(1.0, t_end - t0)):
+                    # a timed phase that runs dry: the engine stops and the vehicle coasts
+                    # until the scheduled end of the phase (staging is commanded by time)
+                    run.flameout_time = t
+                    rule = _Rule(_Constant(0.0), rule.pitch)
+                    run.rules.append((t, rule))
+                    base = [e for e in base if e[0] != "depletion"]
+                    events = [e for e in events if e[0] != "depletion"]
+                    fun = rates.bind(prop, rule)
+                    continue
                 run.ended_by = name
                 return run, prop, t_sched
+            i_cut += 1
+        if switched:
+            continue
         if not switched and t >= t_end:
             break
     if open_ended:
@@ -935,6 +948,12 @@ def simulate(problem, schedule=None, *, coast_to_apogee: bool = True, rtol: floa
                                         scheduled_end=t_sched))
         if phase.powered:
             remaining = float(x[-1] - vehicle.burnout_mass(phase.stage))
+            if run.flameout_time is not None:
+                exhausted.add(phase.stage)
+                events.append(_event_record(
+                    "flameout", run.flameout_time, k, phase.stage,
+                    run.solution()(run.flameout_time)[:n], problem, scheduled_end=t_sched,
+                    propellant_remaining=0.0))
             if run.ended_by == "depletion":
                 exhausted.add(phase.stage)
                 early = (t_sched is not None and t_sched - t > _FLAMEOUT_FRACTION
