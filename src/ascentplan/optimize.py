@@ -32,7 +32,8 @@ IPOPT_OPTIONS = {
     "ipopt.tol": 1e-8,
     "ipopt.acceptable_tol": 1e-6,
     "ipopt.acceptable_iter": 10,
-    "ipopt.max_iter": 1500,
+    "ipopt.max_iter": 1000,
+    "ipopt.max_wall_time": 300.0,
     "ipopt.print_level": 0,
     "ipopt.sb": "yes",
     "print_time": False,
@@ -121,7 +122,7 @@ class AscentNLP:
     """
 
     def __init__(self, problem: Problem, scales: dict, nodes_per_phase: int | None = None,
-                 symbolic: str = "SX"):
+                 symbolic: str = "MX"):
         t0 = _time.perf_counter()
         self.problem = problem
         self.kind = problem.dynamics
@@ -136,6 +137,7 @@ class AscentNLP:
         self.n_stages = len(problem.vehicle.stages)
         self._scales = scales
         self._sym = ca.MX if symbolic == "MX" else ca.SX
+        self._function_options = {"never_inline": True} if symbolic == "SXcall" else {}
         self._build()
         self.build_time = _time.perf_counter() - t0
 
@@ -243,6 +245,11 @@ class AscentNLP:
             N = self.nodes[j]
             stage = stages[ph.stage]
             X = add(f"x{j}", (nx, N), -np.inf, np.inf)
+            x_lb, x_ub = lbw[-1], ubw[-1]
+            if self.scheme.uses_midpoint:
+                # separated Hermite-Simpson: midpoint states are variables, so every model
+                # evaluation depends on one point's variables only (a sparse, cheap Hessian)
+                Xc = add(f"xc{j}", (nx, N - 1), -np.inf, np.inf)
             # controls: throttle range of the stage, pitch bounds
             if ph.powered:
                 t_lo, t_hi = stage.throttle_min, stage.throttle_max
@@ -280,7 +287,8 @@ class AscentNLP:
             Xk, Xk1 = X[:, :-1], X[:, 1:]
             Fk, Fk1 = Fs[:, :-1], Fs[:, 1:]
             if self.scheme.uses_midpoint:
-                Xc = self.scheme.midpoint_state(Xk, Xk1, Fk, Fk1, h)
+                constrain(f"midpoints{j}", Xc - self.scheme.midpoint_state(Xk, Xk1, Fk, Fk1, h),
+                          0.0, 0.0)
                 Uc = 0.5 * (U[:, :-1] + U[:, 1:])
                 F_mid, Q_mid = node_fn.map(N - 1)(xs_off + xs_sc * Xc, Uc, prop_vec)
                 Fc = F_mid / xs_sc
@@ -316,8 +324,8 @@ class AscentNLP:
             m_idx = nx - 1
             if prev_phase is None:
                 fixed = (x0 - self.x_offset) / self.x_scale
-                lbw[-3][: nx - 1] = fixed[: nx - 1]
-                ubw[-3][: nx - 1] = fixed[: nx - 1]
+                x_lb[: nx - 1] = fixed[: nx - 1]
+                x_ub[: nx - 1] = fixed[: nx - 1]
                 constrain("liftoff_mass", (start_phys[m_idx] - ignition[0]) / ms, 0.0, 0.0)
             else:
                 X_prev, _, _ = self.phase_vars[j - 1]
@@ -388,7 +396,7 @@ class AscentNLP:
         fq = dynamics.flight_quantities(x, u, self.model, prop)
         qa = fq.get("q_alpha", ca.SX(0.0))
         Q = ca.vertcat(fq["dynamic_pressure"], fq["axial_acceleration"], qa, fq["altitude"])
-        return ca.Function("node", [x, u, pp], [xdot, Q])
+        return ca.Function("node", [x, u, pp], [xdot, Q], self._function_options)
 
     def _add_targets(self, xb, constrain):
         t = self.problem.target
@@ -477,6 +485,8 @@ class AscentNLP:
         for j in range(len(self.phases)):
             X = (np.asarray(guess.states[j]) - self.x_offset[:, None]) / self.x_scale[:, None]
             parts.append(X.flatten(order="F"))
+            if f"xc{j}" in self._index:
+                parts.append((0.5 * (X[:, :-1] + X[:, 1:])).flatten(order="F"))
             parts.append(np.asarray(guess.controls[j]).flatten(order="F"))
             parts.append(np.array([guess.durations[j] / self.duration_scale[j]]))
         w = np.concatenate(parts)

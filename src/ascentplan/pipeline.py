@@ -179,11 +179,29 @@ def _with_solution_masses(problem: Problem, solution: NLPSolution) -> Problem:
     return replace(problem, vehicle=new_vehicle)
 
 
+def _guess_schedule(problem: Problem):
+    """The schedule flown for the first guess: the default (full throttle, gravity turn),
+    except over a vacuum or with no pitch-over, where a gravity turn never leaves the
+    vertical; there, pitch falls linearly from 90 deg to 0 over the estimated burn time."""
+    from .atmosphere import Vacuum
+    from .problem import TimeSchedule
+
+    if problem.dynamics != "planar":
+        return None
+    if not isinstance(problem.atmosphere, Vacuum) and problem.launch.pitch_over > 0:
+        return None
+    rise = problem.launch.vertical_rise
+    total = sum(s.full_throttle_burn_time + s.coast_after for s in problem.vehicle.stages)
+    return TimeSchedule(time=(0.0, max(rise, 1e-3), max(total, rise + 1.0)),
+                        throttle=(1.0, 1.0, 1.0), pitch=(0.5 * np.pi, 0.5 * np.pi, 0.0))
+
+
 def first_guess(problem: Problem, nodes: int):
     """A guess and scales from a forward simulation of the default schedule."""
     from .simulate import simulate
 
-    traj = simulate(problem, None, coast_to_apogee=problem.objective == "max_apogee")
+    traj = simulate(problem, _guess_schedule(problem),
+                    coast_to_apogee=problem.objective == "max_apogee")
     guess = guess_from_trajectory(problem, traj, nodes)
     return guess, scales_for(problem, guess)
 
