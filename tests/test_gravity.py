@@ -56,8 +56,10 @@ def test_constant_gravity():
     assert given.acceleration(radius).shape == (2,)
     r = ca.SX.sym("r")
     assert float(ca.Function("g", [r], [given.acceleration(r)])(7e6)) == 9.81
-    with pytest.raises(ValueError, match=r"^acceleration: must be > 0 m/s\^2, got 0.0"):
-        ConstantGravity.from_planet(EARTH, acceleration=0.0)
+    with pytest.raises(ValueError, match=r"^acceleration: must be >= 0 m/s\^2, got -1.0"):
+        ConstantGravity.from_planet(EARTH, acceleration=-1.0)
+    # zero gravity is allowed: the no-gravity limit of the rocket equation
+    assert ConstantGravity(0.0).acceleration(7e6) == 0.0
 
 
 @pytest.mark.parametrize("name", sorted(GRAVITY_MODELS))

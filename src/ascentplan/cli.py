@@ -81,11 +81,12 @@ def _cmd_solve(args) -> int:
     from .pipeline import format_result, solve, write_outputs
     from .split import solve_with_split_comparison
 
+    out = Path(args.out) if args.out is not None else Path("results") / problem.name
     if problem.mass_split is not None:
-        result = solve_with_split_comparison(problem)
+        points = args.split_map if args.split_map else None
+        result = solve_with_split_comparison(problem, map_points=points, out_dir=out)
     else:
         result = solve(problem)
-    out = Path(args.out) if args.out is not None else Path("results") / problem.name
     write_outputs(result, out)
     print(format_result(result))
     print(f"results written to {out}/")
@@ -102,6 +103,10 @@ def _add_solve(subparsers) -> None:
     p.add_argument("file", metavar="FILE", help="YAML problem file")
     p.add_argument("--out", metavar="DIR", default=None,
                    help="results folder (default: results/<problem name>/)")
+    p.add_argument("--split-map", type=int, default=0, metavar="N",
+                   help="with a stage-mass split held at its liftoff mass: also map the "
+                        "objective over the split around the optimum, N points per axis "
+                        "(warm-started re-solves; written to split_map.png)")
     p.set_defaults(handler=_cmd_solve)
 
 

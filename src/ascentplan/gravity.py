@@ -61,8 +61,9 @@ class ConstantGravity:
                                         doc="gravitational acceleration; default mu/R^2")}
 
     def __post_init__(self):
-        if not np.isfinite(self.value) or self.value <= 0.0:
-            raise ValueError(f"acceleration: must be > 0 m/s^2, got {self.value!r}")
+        # zero is allowed: the no-gravity limit of the rocket-equation checks
+        if not np.isfinite(self.value) or self.value < 0.0:
+            raise ValueError(f"acceleration: must be >= 0 m/s^2, got {self.value!r}")
 
     @classmethod
     def from_planet(cls, planet, acceleration=None):

@@ -66,6 +66,7 @@ class Result:
     nodes: int
     mesh_refinements: int
     extra: dict = field(default_factory=dict)
+    scales: dict | None = None  # the NLP variable scales, reused by warm starts
 
     @property
     def objective_value(self) -> float:
@@ -88,11 +89,15 @@ class Result:
             unit, factor = LIMIT_UNITS[c.name]
             price_si = self.solution.shadow_prices.get(c.name, 0.0)
             active = c.name in self.solution.binding
-            price = price_si * factor / obj_div if active else 0.0
+            # multipliers are sensitivities only at a converged optimum
+            converged = self.solution.status == "optimal"
+            price = price_si * factor / obj_div if active and converged else 0.0
+            if not converged:
+                price = None
             out.append({
                 "name": c.name, "bound": c.bound / factor, "unit": unit,
                 "peak": c.peak / factor, "peak_time_s": c.time, "active": bool(active),
-                "shadow_price": float(price),
+                "shadow_price": None if price is None else float(price),
                 "shadow_price_unit": f"{obj_unit} per {unit}",
             })
         return out
@@ -225,7 +230,7 @@ def solve(problem: Problem, *, warm_start: Result | None = None,
     if warm_start is not None:
         nodes = warm_start.nodes
         guess = guess_from_solution(problem, warm_start.solution, nodes)
-        scales = warm_start.extra.get("_scales") if "_scales" in warm_start.extra else None
+        scales = warm_start.scales
         if scales is None:
             _, scales = first_guess(problem, nodes)
     else:
@@ -249,7 +254,7 @@ def solve(problem: Problem, *, warm_start: Result | None = None,
                     verification=verification, trajectory=trajectory, schedule=schedule,
                     solved_problem=solved_problem, iterations=iterations,
                     wall_time=_time.perf_counter() - t_start, nodes=nodes,
-                    mesh_refinements=refinements)
+                    mesh_refinements=refinements, scales=scales)
     return result
 
 
@@ -295,8 +300,12 @@ def format_result(result: Result) -> str:
         lines.append("  limits        name                      bound        peak   active"
                      "  shadow price")
         for lim in s["limits"]:
-            price = (f"{lim['shadow_price']:.4g} {lim['shadow_price_unit']}" if lim["active"]
-                     else "0 (inactive)")
+            if lim["shadow_price"] is None:
+                price = "n/a (not converged)"
+            elif lim["active"]:
+                price = f"{lim['shadow_price']:.4g} {lim['shadow_price_unit']}"
+            else:
+                price = "0 (inactive)"
             lines.append(f"                {lim['name']:<24}{lim['bound']:>8.4g} {lim['unit']:<7}"
                          f"{lim['peak']:>9.4g}   {'yes' if lim['active'] else 'no ':<5} {price}")
     lines.append("  stages        name            propellant [kg]   dry [kg]   burn [s]")
@@ -306,6 +315,19 @@ def format_result(result: Result) -> str:
     if s.get("losses_m_s"):
         lo = s["losses_m_s"]
         lines.append("  losses [m/s]  " + ", ".join(f"{k} {val:.1f}" for k, val in lo.items()))
+    split = s.get("mass_split")
+    if split:
+        lines.append(f"  stage split   ({split['hold'].replace('_', ' ')} held)  "
+                     "rocket-equation [kg]   flown optimally [kg]   coupled [kg]")
+        for st in split["stages"]:
+            lines.append(f"                {st['name']:<16}"
+                         f"{st['rocket_equation_propellant_mass_kg']:>14.1f}"
+                         f"{st['analytic_propellant_mass_kg']:>23.1f}"
+                         f"{st['coupled_propellant_mass_kg']:>15.1f}")
+        u = split["objective_unit"]
+        lines.append(f"                objective: rocket-equation split flown optimally "
+                     f"{split['analytic_objective']:.6g} {u} ({split['analytic_status']}), "
+                     f"coupled {split['coupled_objective']:.6g} {u}")
     sv = s["solver"]
     lines.append(f"  solver        {sv['iterations']} iterations, {sv['wall_time_s']:.2f} s, "
                  f"{sv['nodes']} nodes per phase, {sv['mesh_refinements']} refinement(s)")

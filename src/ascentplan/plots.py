@@ -355,3 +355,57 @@ def plot_result(result, out_dir, *, prefix: str = "") -> list[Path]:
     problem = getattr(result, "solved_problem", None) or result.problem
     return plot_trajectory(problem, result.trajectory, out_dir, nodes=result_nodes(result),
                            prefix=prefix)
+
+
+def plot_split_map(split_map: dict, out_dir, *, unit: str, objective: str,
+                   name: str = "split_map.png") -> Path:
+    """Plot the objective over the stage-mass split around the coupled optimum.
+
+    Two stages: a line over the first stage's share of the total stage mass; three
+    stages: filled contours over the first two stages' shares. The optimum is marked.
+
+    Parameters
+    ----------
+    split_map : dict
+        From :func:`ascentplan.split.split_map`.
+    out_dir : str or Path
+    unit : str
+        Unit of the objective values.
+    objective : str
+        Objective name, for the axis label.
+    """
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    fractions = np.array(split_map["fractions"])
+    values = np.array(split_map["objective"], dtype=float)
+    names = split_map["stage_names"]
+    center = split_map["center_fractions"]
+    fig = Figure(figsize=(7.0, 5.0))
+    FigureCanvasAgg(fig)
+    ax = fig.add_subplot(1, 1, 1)
+    label = f"{objective.replace('_', ' ')} [{unit}]"
+    if fractions.shape[1] == 2:
+        ax.plot(100 * fractions[:, 0], values, "o-", color="tab:blue")
+        ax.axvline(100 * center[0], color="tab:red", linestyle=":", label="coupled optimum")
+        ax.set_xlabel(f"{names[0]} share of the total stage mass [%]")
+        ax.set_ylabel(label)
+        ax.legend(loc="best")
+    else:
+        n = int(round(np.sqrt(len(values))))
+        f1 = 100 * fractions[:, 0].reshape(n, n)
+        f2 = 100 * fractions[:, 1].reshape(n, n)
+        z = values.reshape(n, n)
+        filled = ax.contourf(f1, f2, z, levels=12, cmap="viridis")
+        ax.contour(f1, f2, z, levels=12, colors="k", linewidths=0.4)
+        fig.colorbar(filled, ax=ax, label=label)
+        ax.plot(100 * center[0], 100 * center[1], "r*", markersize=12,
+                label="coupled optimum")
+        ax.set_xlabel(f"{names[0]} share of the total stage mass [%]")
+        ax.set_ylabel(f"{names[1]} share of the total stage mass [%]")
+        ax.legend(loc="best")
+    ax.set_title("Objective around the optimal stage-mass split (re-solved at each point)")
+    ax.grid(True, alpha=0.3)
+    fig.tight_layout()
+    path = out / name
+    fig.savefig(path, dpi=DPI)
+    return path
