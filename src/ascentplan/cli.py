@@ -83,7 +83,7 @@ def _cmd_solve(args) -> int:
 
     out = Path(args.out) if args.out is not None else Path("results") / problem.name
     if problem.mass_split is not None:
-        points = args.split_map if args.split_map else None
+        points = args.split_map or problem.mass_split.map_points or None
         result = solve_with_split_comparison(problem, map_points=points, out_dir=out)
     else:
         result = solve(problem)
@@ -106,7 +106,8 @@ def _add_solve(subparsers) -> None:
     p.add_argument("--split-map", type=int, default=0, metavar="N",
                    help="with a stage-mass split held at its liftoff mass: also map the "
                         "objective over the split around the optimum, N points per axis "
-                        "(warm-started re-solves; written to split_map.png)")
+                        "(warm-started re-solves; written to split_map.png); overrides "
+                        "mass_split.map_points")
     p.set_defaults(handler=_cmd_solve)
 
 

@@ -55,7 +55,7 @@ _LIMIT_KEYS = ("max_dynamic_pressure", "max_axial_acceleration", "max_q_alpha",
 _TARGET_KEYS = ("altitude", "speed", "flight_path_angle", "circular_orbit_altitude")
 _MESH_KEYS = ("scheme", "nodes_per_phase", "max_refinements", "speed_tolerance",
               "speed_tolerance_fraction", "limit_tolerance_fraction")
-_SPLIT_KEYS = ("hold", "liftoff_mass")
+_SPLIT_KEYS = ("hold", "liftoff_mass", "map_points")
 _SPLIT_HOLDS = ("liftoff_mass", "payload")
 _SCHEDULE_KEYS = ("time", "throttle", "pitch")
 _DYNAMICS = ("vertical", "planar")
@@ -871,12 +871,16 @@ def _read_mass_split(r: _Reader, data: dict):
     before = len(r.messages)
     hold = r.choice(section, "hold", "mass_split", _SPLIT_HOLDS, "liftoff_mass", "hold")
     liftoff = r.quantity(section, "liftoff_mass", "mass_split", "kg", gt=0.0)
+    map_points = r.integer(section, "map_points", "mass_split", 0, 0)
+    if map_points not in (0, None) and (map_points < 3 or hold != "liftoff_mass"):
+        r.error("mass_split.map_points", "must be 0 (no map) or at least 3, and needs "
+                                         f"hold: liftoff_mass; got {show(map_points)}")
     if hold == "payload" and section.get("liftoff_mass") is not None:
         r.error("mass_split.liftoff_mass", f"is what hold: payload minimises; remove it, got "
                                            f"{show(section['liftoff_mass'])}")
     if len(r.messages) > before:
         return None
-    return MassSplit(hold=hold, liftoff_mass=liftoff)
+    return MassSplit(hold=hold, liftoff_mass=liftoff, map_points=map_points or 0)
 
 
 def _read_schedule(r: _Reader, data: dict, vertical: bool):

@@ -353,7 +353,9 @@ def write_outputs(result: Result, out_dir) -> list:
     from .plots import plot_result
     from .report import write_report
 
-    pngs = plot_result(result, out)
-    written += list(pngs)
+    pngs = list(plot_result(result, out))
+    if result.extra.get("mass_split", {}).get("map") and (out / "split_map.png").exists():
+        pngs.append(out / "split_map.png")
+    written += pngs
     written.append(write_report(result, out, plots=pngs))
     return written

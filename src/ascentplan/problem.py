@@ -216,6 +216,8 @@ class MassSplit:
 
     hold: str = "liftoff_mass"
     liftoff_mass: float | None = None  # [kg]; default: the vehicle's as written
+    #: points per axis of the map of the objective around the optimum (0: no map)
+    map_points: int = 0
     #: internal: scale all stages by one factor (keeps a given split's proportions)
     proportional: bool = False
 
