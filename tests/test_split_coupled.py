@@ -84,3 +84,29 @@ def test_with_gravity_drag_and_a_limit_the_coupled_split_is_never_worse():
     assert any(lim["active"] and lim["name"] == "max_dynamic_pressure" for lim in r.limits())
     assert r.solved_problem.vehicle.liftoff_mass == pytest.approx(
         problem.vehicle.liftoff_mass, rel=1e-9)
+
+
+def test_payload_held_minimum_liftoff_mass_is_the_rocket_equation_optimum():
+    # payload held, liftoff mass minimised for a burnout speed: with gravity and drag off
+    # this is the Lagrange-multiplier problem for that velocity increment (Curtis,
+    # "Optimal staging"), so the liftoff mass and the split agree within 0.1 %
+    from ascentplan.problem import Target
+    from ascentplan.staging import optimal_split
+
+    base = _vacuum_two_stage()
+    speed = 8000.0
+    problem = replace(base, objective="min_liftoff_mass", target=Target(speed=speed),
+                      mass_split=MassSplit(hold="payload"))
+    r = solve_with_split_comparison(problem)
+    assert r.status == "optimal", r.message
+    stages = base.vehicle.stages
+    reference = optimal_split([s.exhaust_speed for s in stages],
+                              [s.dry_mass / s.mass for s in stages],
+                              payload_mass=base.vehicle.payload_mass, delta_v=speed)
+    assert r.solved_problem.vehicle.liftoff_mass == pytest.approx(reference.liftoff_mass,
+                                                                  rel=1e-3)
+    for i, stage in enumerate(r.solved_problem.vehicle.stages):
+        assert stage.propellant_mass == pytest.approx(reference.propellant_mass[i], rel=1e-3)
+    # the rocket-equation split flown with its proportions held needs no more mass here
+    info = r.extra["mass_split"]
+    assert info["coupled_objective"] <= info["analytic_objective"] * (1 + 1e-6)

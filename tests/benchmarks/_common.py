@@ -1,0 +1,282 @@
+"""Shared pieces of the optimiser benchmarks: machine record, point subprocesses, JSON and README output."""
+
+from __future__ import annotations
+
+import datetime as _dt
+import json
+import math
+import os
+import platform
+import subprocess
+import sys
+from importlib import metadata
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[2]
+PROBLEMS = ROOT / "problems"
+RESULTS = ROOT / "results" / "benchmarks"
+#: a smoke run writes here so that it never overwrites the figures of a full run
+QUICK_RESULTS = RESULTS / "quick"
+
+#: marks the one stdout line of a point subprocess that carries its JSON answer
+POINT_MARK = "BENCHMARK-POINT "
+
+
+def problem_path(name: str) -> Path:
+    return PROBLEMS / f"{name}.yaml"
+
+
+def _cpu_model() -> str:
+    try:
+        for line in Path("/proc/cpuinfo").read_text().splitlines():
+            if line.lower().startswith("model name"):
+                return line.split(":", 1)[1].strip()
+    except OSError:
+        pass
+    return platform.processor() or "unknown"
+
+
+def _version(name: str) -> str:
+    try:
+        return metadata.version(name)
+    except metadata.PackageNotFoundError:
+        return "not installed"
+
+
+def machine_info() -> dict:
+    """Versions, processor, core count and load: what a timing depends on."""
+    try:
+        usable = len(os.sched_getaffinity(0))
+    except AttributeError:
+        usable = os.cpu_count()
+    info = {
+        "date": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
+        "python": platform.python_version(),
+        "implementation": platform.python_implementation(),
+        "platform": platform.platform(),
+        "cpu": _cpu_model(),
+        "cpu_count": os.cpu_count(),
+        "usable_cpus": usable,
+        "packages": {name: _version(name) for name in
+                     ("ascentplan", "casadi", "numpy", "scipy", "matplotlib")},
+    }
+    # other work on a small machine skews timings; the load says how much there was
+    info["load_average_1_5_15_min"] = load_average()
+    return info
+
+
+def load_average() -> list | None:
+    """The 1, 5 and 15 minute load averages, where the system reports them."""
+    if hasattr(os, "getloadavg"):
+        return [round(x, 2) for x in os.getloadavg()]
+    return None
+
+
+def emit_point(data: dict) -> None:
+    """Print a point's answer as the one marked JSON line its parent reads."""
+    print(POINT_MARK + json.dumps(data), flush=True)
+
+
+def run_point(script: str, args: list[str], timeout: float = 900.0) -> dict:
+    """Run ``script --point args...`` in a fresh interpreter and return its JSON answer.
+
+    A fresh process per point gives a cold state (no built solvers, no loaded solver
+    plugins) and a peak resident size of that point alone.
+    """
+    cmd = [sys.executable, script, "--point", *args]
+    try:
+        proc = subprocess.run(cmd, capture_output=True, text=True, timeout=timeout,
+                              cwd=str(ROOT))
+    except subprocess.TimeoutExpired:
+        return {"error": f"timed out after {timeout:.0f} s"}
+    for line in reversed(proc.stdout.splitlines()):
+        if line.startswith(POINT_MARK):
+            return json.loads(line[len(POINT_MARK):])
+    tail = (proc.stderr or proc.stdout).strip().splitlines()[-5:]
+    return {"error": f"exit code {proc.returncode}: " + " | ".join(tail)}
+
+
+def median(values):
+    values = sorted(v for v in values if v is not None and not math.isnan(v))
+    if not values:
+        return float("nan")
+    n = len(values)
+    mid = n // 2
+    return values[mid] if n % 2 else 0.5 * (values[mid - 1] + values[mid])
+
+
+def write_result(name: str, data: dict, quick: bool) -> Path:
+    """Write ``<name>.json`` with the machine record, then regenerate the README."""
+    out_dir = QUICK_RESULTS if quick else RESULTS
+    out_dir.mkdir(parents=True, exist_ok=True)
+    path = out_dir / f"{name}.json"
+    path.write_text(json.dumps(data, indent=2) + "\n")
+    write_readme(out_dir)
+    return path
+
+
+# ----------------------------------------------------------------- README tables
+
+def _f(value, digits=3):
+    if value is None:
+        return "-"
+    if isinstance(value, str):
+        return value
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, float) and math.isnan(value):
+        return "-"
+    if isinstance(value, int):
+        return str(value)
+    return f"{value:.{digits}g}" if abs(value) >= 1e-3 or value == 0 else f"{value:.2e}"
+
+
+def _table(header, rows):
+    lines = ["| " + " | ".join(header) + " |", "|" + "---|" * len(header)]
+    lines += ["| " + " | ".join(_f(c) for c in row) + " |" for row in rows]
+    return lines
+
+
+def _machine_lines(data):
+    m = data.get("machine", {})
+    pk = m.get("packages", {})
+    load = m.get("load_average_1_5_15_min")
+    return [
+        f"Run {m.get('date', '?')} on {m.get('cpu', '?')}, {m.get('usable_cpus', '?')} usable "
+        f"of {m.get('cpu_count', '?')} CPUs, {m.get('platform', '?')}; Python "
+        f"{m.get('python', '?')}, CasADi {pk.get('casadi', '?')}, NumPy {pk.get('numpy', '?')}, "
+        f"SciPy {pk.get('scipy', '?')}"
+        + (f"; load average at start {load[0]} / {load[1]} / {load[2]} (1 / 5 / 15 min)"
+           if load else "") + ".",
+        f"Wall time of the whole run: {_f(data.get('run_time_s'))} s"
+        + (f"; load average at the end {data['load_average_end'][0]} (1 min)"
+           if data.get("load_average_end") else "") + ".",
+        "",
+    ]
+
+
+def _goal_lines(goals):
+    lines = []
+    for g in goals:
+        verdict = "met" if g["met"] else "NOT met"
+        lines.append(f"- **Goal: {g['goal']}** — {verdict}. {g['evidence']}")
+    return lines + [""]
+
+
+def _examples_section(data):
+    lines = ["## Solve-plus-verify time of the example problems", "",
+             f"Regenerate: `{data['command']}`", ""] + _machine_lines(data)
+    lines += [data.get("method", ""), ""]
+    header = ["problem", "nodes", "status", "iterations", "objective", "cold solve() [s]",
+              "its CPU [s]",
+              "first guess [s]", "build [s]", "NLP solve [s]", "replay + verify [s]",
+              "sum of parts [s]", "rebuild solve() [s]", "cached re-solve [s]",
+              "import [s]", "peak RSS [MB]"]
+    rows = []
+    for e in data["examples"]:
+        m = e["median"]
+        rows.append([e["problem"], e["nodes"], e["status"], e["iterations"],
+                     f"{e['objective']:.6g} {e['objective_unit']}", m["cold_solve_s"],
+                     m.get("cold_solve_cpu_s"),
+                     m["first_guess_s"], m["build_s"], m["nlp_solve_s"],
+                     m["replay_verify_s"], m["sum_of_parts_s"], m["rebuild_solve_s"],
+                     m["cached_solve_s"], m["import_s"], m["peak_rss_mb"]])
+    lines += _table(header, rows) + [""]
+    lines += ["Medians over the repetitions; each repetition runs in fresh processes.", ""]
+    lines += _goal_lines(data.get("goals", []))
+    return lines
+
+
+def _scaling_section(data):
+    lines = ["## Time and memory against mesh size", "",
+             f"Regenerate: `{data['command']}`", ""] + _machine_lines(data)
+    lines += [data.get("method", ""), ""]
+    header = ["problem", "symbolic", "nodes", "variables", "iterations", "status",
+              "first guess [s]", "build [s]", "NLP solve [s]", "replay + verify [s]",
+              "total [s]", "peak RSS [MB]", "peak traced Python [MB]"]
+    rows = []
+    for p in data["points"]:
+        if "error" in p:
+            rows.append([p["problem"], p["symbolic"], p["nodes"], "-", "-", p["error"]]
+                        + ["-"] * 7)
+            continue
+        rows.append([p["problem"], p["symbolic"], p["nodes"], p["variables"], p["iterations"],
+                     p["status"], p["first_guess_s"], p["build_s"], p["nlp_solve_s"],
+                     p["replay_verify_s"], p["total_s"], p["peak_rss_mb"],
+                     p.get("traced_python_peak_mb")])
+    lines += _table(header, rows) + [""]
+    if data.get("skipped"):
+        lines += ["Skipped points:", ""]
+        lines += [f"- {s['problem']} {s['symbolic']} at {s['nodes']} nodes per phase: "
+                  f"{s['reason']}" for s in data["skipped"]]
+        lines += [""]
+    fits = data.get("fits", [])
+    if fits:
+        lines += ["Growth exponents (least squares of log time on log nodes over the points "
+                  "listed):", ""]
+        lines += _table(["problem", "symbolic", "nodes fitted", "total", "build", "NLP solve",
+                         "iterations"],
+                        [[f["problem"], f["symbolic"], ", ".join(str(n) for n in f["nodes"]),
+                          f["total_exponent"], f["build_exponent"], f["solve_exponent"],
+                          f["iterations_exponent"]] for f in fits]) + [""]
+    if data.get("plot"):
+        lines += [f"![time against nodes]({data['plot']})", ""]
+    lines += _goal_lines(data.get("goals", []))
+    return lines
+
+
+def _baseline_section(data):
+    lines = ["## Collocation against a single-shooting baseline", "",
+             f"Regenerate: `{data['command']}`", ""] + _machine_lines(data)
+    lines += [data.get("method", ""), ""]
+    header = ["method", "wall time [s]", "iterations", "trajectory integrations",
+              "status", "burnout speed, optimiser [m/s]", "burnout speed, verified [m/s]",
+              "peak q, verified [kPa]", "q bound [kPa]", "q excess [%]"]
+    rows = []
+    for r in data["methods"]:
+        rows.append([r["method"], r["wall_time_s"], r["iterations"], r.get("integrations"),
+                     r["status"], r["objective_m_s"], r["verified_objective_m_s"],
+                     r["verified_peak_q_kpa"], r["q_bound_kpa"], r["q_excess_percent"]])
+    lines += _table(header, rows) + [""]
+    ratio = data.get("ratio", {})
+    if ratio:
+        lines += [f"Wall-time ratio baseline / ascentplan: {_f(ratio.get('median'))} against "
+                  f"the median ascentplan solve, {_f(ratio.get('slowest'))} against the "
+                  f"slowest (the first in the process). Verified burnout speed, ascentplan "
+                  f"minus baseline: {_f(ratio.get('objective_difference_m_s'))} m/s.", ""]
+    lines += _goal_lines(data.get("goals", []))
+    return lines
+
+
+_SECTIONS = (("examples.json", _examples_section), ("scaling.json", _scaling_section),
+             ("baseline.json", _baseline_section))
+
+
+def write_readme(out_dir: Path = RESULTS) -> Path:
+    """Render ``README.md`` in ``out_dir`` from the benchmark JSON files found there."""
+    lines = ["# ascentplan optimiser benchmarks", "",
+             "Generated from the JSON files beside this file by `write_readme()` in "
+             "`tests/benchmarks/_common.py` (`python tests/benchmarks/_common.py` "
+             "regenerates it alone). Every figure is a measurement of the run named in its "
+             "section; timings are wall-clock seconds on the machine stated there.", ""]
+    found = False
+    for file_name, section in _SECTIONS:
+        path = out_dir / file_name
+        if path.exists():
+            found = True
+            lines += section(json.loads(path.read_text()))
+    if not found:
+        lines += ["No benchmark results yet.", ""]
+    readme = out_dir / "README.md"
+    readme.write_text("\n".join(lines).rstrip() + "\n")
+    return readme
+
+
+def main(argv=None) -> int:
+    quick = "--quick" in (argv if argv is not None else sys.argv[1:])
+    print(write_readme(QUICK_RESULTS if quick else RESULTS))
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
