@@ -75,7 +75,8 @@ def structure_key(problem: Problem) -> tuple:
     return (problem.dynamics, problem.planet, problem.atmosphere, problem.gravity,
             problem.aerodynamics, problem.launch, stages, tuple(problem.limits.active_names()),
             problem.target, problem.objective, problem.mesh.scheme, problem.mesh.nodes_per_phase,
-            problem.mass_split)
+            None if problem.mass_split is None else (problem.mass_split.hold,
+                                                     problem.mass_split.proportional))
 
 
 @dataclass
@@ -308,8 +309,10 @@ class AscentNLP:
                           Q_all[1, :] / lim_par["max_axial_acceleration"], -np.inf, 1.0)
             if lim.max_q_alpha is not None and ph.kind == "burn":
                 constrain("max_q_alpha", Q_all[2, :] / lim_par["max_q_alpha"], -1.0, 1.0)
-            if lim.min_altitude is not None and j > 0:
-                constrain("min_altitude", (Q_all[3, :] - lim_par["min_altitude"]) / xs_sc[0],
+            if lim.min_altitude is not None:
+                # not at liftoff: the pad state is fixed, a constraint there is degenerate
+                altitudes = Q_all[3, 1:] if j == 0 else Q_all[3, :]
+                constrain("min_altitude", (altitudes - lim_par["min_altitude"]) / xs_sc[0],
                           0.0, np.inf)
 
             # throttle-rate limit, linear in the variables
@@ -546,6 +549,8 @@ class AscentNLP:
             shadow[name] = float(self.objective_sense * self.objective_scale * lam_p[i])
         gval = np.array(self.g_function(w, pvec)).ravel()
         viol = float(np.max(np.concatenate([[0.0], self.lbg - gval, gval - self.ubg])))
+        ret = stats.get("return_status", "unknown")
+        success = bool(stats.get("success", False))
         binding = []
         for name in self.limit_names:
             rows = self._g_index.get(name, [])
@@ -554,10 +559,14 @@ class AscentNLP:
             vals = np.concatenate([gval[s:s + n] for s, n in rows])
             ub = np.concatenate([self.ubg[s:s + n] for s, n in rows])
             lb = np.concatenate([self.lbg[s:s + n] for s, n in rows])
-            if np.any(vals >= ub - 1e-3) or np.any(vals <= lb + 1e-3):
+            lam = np.concatenate([lam_g[s:s + n] for s, n in rows])
+            at_bound = (vals >= ub - 1e-4) | (vals <= lb + 1e-4)
+            if success:
+                # active: at its bound with a multiplier that prices it (scaled objective ~1)
+                if np.any(at_bound & (np.abs(lam) > 1e-7)):
+                    binding.append(name)
+            elif np.any(at_bound | (vals > ub) | (vals < lb)):
                 binding.append(name)
-        ret = stats.get("return_status", "unknown")
-        success = bool(stats.get("success", False))
         if success:
             status = "optimal"
         elif ret in ("Infeasible_Problem_Detected", "Restoration_Failed",
