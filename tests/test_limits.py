@@ -30,7 +30,7 @@ def test_active_dynamic_pressure_limit_is_verified(free_result, limited_result):
     assert r.status == "optimal", r.message
     (lim,) = r.limits()
     assert lim["active"]
-    # DESIGN section 5 / optimiser tolerances: replayed peak within bound + 0.5 %, burnout
+    # the documented verification tolerances (ascentplan.verify): replayed peak within bound + 0.5 %, burnout
     # speed within max(0.5 m/s, 0.05 %)
     assert lim["peak"] * 1000 <= Q_MAX * 1.005
     speed = r.burnout()["speed_m_s"]

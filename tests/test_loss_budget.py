@@ -56,7 +56,7 @@ def test_planar_budget_closes(planar_flight):
     assert traj.status == "ok", traj.message
     losses = traj.losses
     # d|v|/dt = (F cos a - D.v_hat)/m - g sin(gamma) integrated term by term
-    # (DESIGN.md section 2; the projection of Newton's second law on v_hat): closes to
+    # (common practice: the projection of Newton's second law on v_hat): closes to
     # integration error, 1e-7 of the ideal velocity increment
     assert abs(_closure(losses)) < 1e-7 * losses["ideal"]
     # the case exercises every term
@@ -121,7 +121,7 @@ def test_vertical_budget_closes_with_constant_gravity():
     traj = simulate(problem)
     assert traj.status == "ok", traj.message
     losses = traj.losses
-    # budget identity, 1e-7 of the ideal increment (DESIGN.md section 2)
+    # budget identity, 1e-7 of the ideal increment (common practice: Newton's second law along the velocity)
     assert abs(_closure(losses)) < 1e-7 * losses["ideal"]
     # Tsiolkovsky: both stages burn out
     assert losses["ideal"] == pytest.approx(_tsiolkovsky_sum(problem.vehicle), rel=1e-8)

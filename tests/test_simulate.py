@@ -36,7 +36,8 @@ MU = EARTH.gravitational_parameter
 STILL_EARTH = Planet("still earth", EARTH.radius, MU, rotation_rate=0.0)
 NO_DRAG = Aerodynamics(reference_area=1.0, drag=ConstantDrag(0.3))
 
-# Simmons 1972 computed case (REFERENCES.md): u = 2000 m/s, m0 = 1000 kg, 800 kg of
+# G. F. Simmons, Differential Equations with Applications and Historical Notes
+# (McGraw-Hill 1972), ch. 2, miscellaneous problem 29, a case computed from its formula: u = 2000 m/s, m0 = 1000 kg, 800 kg of
 # propellant burnt at 10 kg/s, g = 9.81 m/s^2
 U, M0, MP, ALPHA, G = 2000.0, 1000.0, 800.0, 10.0, 9.81
 
@@ -108,7 +109,7 @@ def test_vertical_flight_simmons_case():
     problem = _problem("vertical", [_simmons_stage()], gravity=ConstantGravity(G))
     traj = simulate(problem)
     assert traj.status == "ok", traj.message
-    # Simmons 1972 computed case (REFERENCES.md), 1e-6 relative
+    # Simmons (1972) closed form, the computed case above, 1e-6 relative
     h10, v10, _ = traj.state_at(10.0)
     assert v10 == pytest.approx(112.62103, rel=1e-6)
     assert h10 == pytest.approx(544.60718, rel=1e-6)
@@ -208,7 +209,7 @@ def test_staging_on_depletion_drops_dry_mass_and_keeps_both_sides():
     assert kinds == ["liftoff", "burnout", "staging", "burnout", "apogee"]
     vehicle = problem.vehicle
     burnout, staging = traj.events[1], traj.events[2]
-    # mass bookkeeping of serial staging: the spent stage leaves (DESIGN.md section 3;
+    # mass bookkeeping of serial staging: the spent stage leaves (common practice;
     # common practice)
     assert burnout["mass"] == pytest.approx(vehicle.burnout_mass(0), rel=1e-12)
     assert staging["mass"] == pytest.approx(vehicle.mass_above(0), rel=1e-14)
@@ -324,7 +325,7 @@ def test_time_schedule_with_flameout_of_a_phase_schedule():
     after = traj.time > 80.0 + 1e-6
     np.testing.assert_allclose(traj.state[2, after], 200.0, rtol=1e-12)
     assert np.all(traj.controls[0, after] == 0.0)
-    # Simmons (REFERENCES.md): after burnout, v falls by g per second
+    # Simmons (1972): after burnout, v falls by g per second
     v_b = traj.state_at(80.0)[1]
     assert traj.burnout_state()[1] == pytest.approx(v_b - G * 20.0, rel=1e-9)
 
@@ -382,7 +383,7 @@ def test_summary_matches_trajectory(tmp_path):
     json.dumps(summary, allow_nan=False)
     assert summary["burnout"]["time_s"] == pytest.approx(80.0, rel=1e-9)
     assert summary["burnout"]["mass_kg"] == pytest.approx(200.0, rel=1e-12)
-    # the budget residual is integration error only (DESIGN.md section 2 identity)
+    # the budget residual is integration error only (the identity is Newton's second law projected on the velocity; common practice)
     assert abs(summary["losses_m_s"]["residual"]) < 1e-7 * summary["losses_m_s"]["ideal"]
     peak = summary["peaks"]["dynamic_pressure"]
     assert peak["value_Pa"] >= np.max(traj.quantities["dynamic_pressure"])

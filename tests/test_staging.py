@@ -49,7 +49,8 @@ def _delta_v_from_stage_masses(stage_masses, exhaust, structural_ratios, payload
 def test_identical_stages_match_published_payload_fractions(stages, fraction):
     split = optimal_split([3000.0] * stages, [0.1] * stages, payload_mass=1000.0,
                           delta_v=9000.0)
-    # REFERENCES.md "Optimal staging" (Curtis): payload fractions printed to 6 decimals,
+    # H. D. Curtis, Orbital Mechanics for Engineering Students, "Optimal staging"
+    # (values computed from its formula): payload fractions printed to 6 decimals,
     # so agreement to half a unit in the last digit.
     assert abs(split.payload_fraction - fraction) <= 5e-7
     # Curtis, "Optimal staging": identical stages split the delta-v equally.
@@ -62,7 +63,7 @@ def test_identical_stages_match_published_payload_fractions(stages, fraction):
 
 
 def test_single_identical_stage_is_infeasible_and_says_why():
-    # REFERENCES.md "Optimal staging": N = 1 infeasible (exp(-3) = 0.0498 < eps = 0.1).
+    # Curtis, "Optimal staging": N = 1 infeasible (exp(-3) = 0.0498 < eps = 0.1).
     with pytest.raises(StagingError) as info:
         optimal_split([3000.0], [0.1], payload_mass=1000.0, delta_v=9000.0)
     message = str(info.value)
@@ -165,7 +166,7 @@ def test_poor_stage_is_left_empty_and_matches_scipy_and_the_single_stage_formula
     split = optimal_split(c, eps, payload_mass=PAYLOAD, delta_v=dv)
     assert split.stage_mass[0] == 0.0
     assert split.mass_ratio[0] == 1.0
-    # Single stage: payload fraction (exp(-dv/c) - eps)/(1 - eps) (REFERENCES.md,
+    # Single stage: payload fraction (exp(-dv/c) - eps)/(1 - eps) (Curtis, "Optimal staging",
     # "Optimal staging" formula with N = 1).
     single = (math.exp(-dv / c[1]) - eps[1]) / (1.0 - eps[1])
     assert split.payload_fraction == pytest.approx(single, rel=1e-12)

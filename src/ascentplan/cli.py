@@ -122,6 +122,9 @@ def _cmd_split(args) -> int:
     except StagingError as exc:
         print(f"{args.file}: {exc}", file=sys.stderr)
         return 3
+    except ValueError as exc:  # a bad combination of options
+        print(f"{args.file}: {exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
     print(f"Rocket-equation stage split of {problem.name} ({hold.replace('_', ' ')} held; "
           "no gravity, drag or limits)")
     print(format_split(split))

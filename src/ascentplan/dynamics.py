@@ -17,7 +17,8 @@ local horizontal:
     m' = -eta F_vac / c,
 
 where w = (v_r, v_t - omega r) is the velocity relative to the co-rotating atmosphere.
-Thrust F = eta F_vac - p_ambient A_exit, drag D = 1/2 rho C_D A_ref |w|^2.
+Thrust F = eta F_vac - p_ambient A_exit (the back-pressure term fades out smoothly at
+zero throttle, where the engine is shut down), drag D = 1/2 rho C_D A_ref |w|^2.
 (Any text on rocket dynamics in polar form, e.g. Curtis, Orbital Mechanics for
 Engineering Students, chapter on rocket vehicle dynamics; Betts 2010, ch. 6.)
 """
@@ -135,7 +136,12 @@ def flight_quantities(x, u, model: FlightModel, prop: Propulsion) -> dict:
         reynolds = atm.density * rel_speed * length / atm.viscosity
     cd = aero.drag.drag_coefficient(mach, reynolds)
     drag = q * cd * aero.reference_area
-    thrust = throttle * prop.thrust_vacuum - atm.pressure * prop.exit_area
+    gross = throttle * prop.thrust_vacuum
+    # the back-pressure loss p A_exit acts while the engine fires; the factor
+    # gross/(gross + w) (w a millionth of full thrust) removes it smoothly at zero throttle,
+    # where a shut-down engine exerts no thrust, and changes it by ~1e-6 otherwise
+    firing = gross / (gross + 1e-6 * prop.thrust_vacuum + 1e-9)
+    thrust = gross - atm.pressure * prop.exit_area * firing
     mass_flow = throttle * prop.thrust_vacuum / prop.exhaust_speed
     g = model.gravity.acceleration(radius)
     out = dict(

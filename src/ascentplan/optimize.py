@@ -1,14 +1,19 @@
 """The multi-phase collocation NLP of an ascent, built once per problem structure.
 
-The NLP is an expanded SX graph: per phase, one CasADi Function of the dynamics and path
-quantities is written from :func:`ascentplan.dynamics.flight_quantities` and vectorised
-over the mesh with ``Function.map``. Limits and masses are NLP parameters, so a re-solve
-with other values (a sweep point, a shadow-price check) reuses the built solver.
+Per phase, one SX Function of the dynamics and path quantities is written from
+:func:`ascentplan.dynamics.flight_quantities` and vectorised over the mesh with
+``Function.map``; the NLP is an MX graph over those mapped SX functions (``symbolic="MX"``,
+the default), so CasADi differentiates one point's function once and the build stays
+small, or a fully inlined SX graph (``symbolic="SX"``: slower to build, faster to
+evaluate; the benchmarks in tests/benchmarks/ measure both). Limits, masses and thrusts
+are NLP parameters, so a re-solve with other values (a sweep point, a shadow-price check)
+reuses the built solver.
 
 Decision variables, all scaled to order one: per phase the states at the nodes
-(x = offset + scale * x_scaled), the controls at the nodes (throttle, pitch [rad]) and
-the phase duration (duration = duration_scale * t_scaled); optionally the payload mass
-and each stage's propellant mass. Controls are piecewise linear between nodes.
+(x = offset + scale * x_scaled), with Hermite-Simpson the states at the interval
+midpoints (separated form), the controls at the nodes (throttle, pitch [rad]) and the
+phase duration (duration = duration_scale * t_scaled); optionally the payload mass and
+each stage's propellant mass. Controls are piecewise linear between nodes.
 """
 
 from __future__ import annotations
@@ -26,7 +31,8 @@ from .transcription import TRANSCRIPTIONS
 
 _LIMIT_ORDER = ("max_dynamic_pressure", "max_axial_acceleration", "max_q_alpha", "min_altitude")
 
-#: IPOPT options (CASADI-NOTES: MUMPS, exact Hessian, monotone mu)
+#: IPOPT options: MUMPS (shipped with CasADi), exact Hessian, the default monotone mu
+#: strategy (measured faster than adaptive on these problems)
 IPOPT_OPTIONS = {
     "ipopt.linear_solver": "mumps",
     "ipopt.tol": 1e-8,
@@ -40,7 +46,8 @@ IPOPT_OPTIONS = {
     "record_time": True,
 }
 
-#: IPOPT options added for a warm start (CASADI-NOTES section 1: small mu_init and pushes)
+#: IPOPT options added for a warm start: without warm_start_init_point IPOPT ignores the
+#: multipliers, and the gain comes mostly from a small mu_init and small bound pushes
 WARM_START_OPTIONS = {
     "ipopt.warm_start_init_point": "yes",
     "ipopt.warm_start_bound_push": 1e-6,

@@ -60,8 +60,9 @@ class PhaseControls:
     Attributes
     ----------
     duration : float
-        Phase duration [s]. A burn still ends early if its propellant runs out, and a
-        phase that ends at apogee ends there whatever its duration.
+        Phase duration [s]. A burn whose propellant runs out earlier records a
+        ``flameout`` and coasts, engine off, to this scheduled end (staging is commanded
+        by time); a phase that ends at apogee ends there whatever its duration.
     time : numpy.ndarray
         Node times relative to the phase start [s], strictly increasing.
     throttle : numpy.ndarray
@@ -145,7 +146,8 @@ def _loss_rates(x, u, model, prop):
         f["gravity"] * sin_gamma,
         along_drag / mass,
         f["thrust"] / mass * (1.0 - cos_thrust),
-        f["pressure"] * prop.exit_area / mass,
+        # nozzle back-pressure: what the ambient pressure takes from the vacuum thrust
+        (throttle * prop.thrust_vacuum - f["thrust"]) / mass,
     ]
 
 
@@ -836,9 +838,9 @@ def simulate(problem, schedule=None, *, coast_to_apogee: bool = True, rtol: floa
         * :class:`PhaseSchedule`: one entry per phase of
           :func:`~ascentplan.problem.phase_plan`, controls linear between the nodes
           (the optimiser's representation, replayed exactly); phase durations from it,
-          except that a burn ends early if its propellant runs out (a ``flameout``
-          event; later phases start at the actual time) and a phase that ends at apogee
-          ends there.
+          except that a phase that ends at apogee ends there; a burn whose propellant
+          runs out before its scheduled end records a ``flameout`` and coasts, engine
+          off, to that end.
         * :class:`~ascentplan.problem.TimeSchedule`: controls against time from liftoff,
           linear between the given times and held outside them; each stage burns until
           its propellant is exhausted; pitch None means the default steering.

@@ -47,7 +47,11 @@ class Transcription:
 
 
 class HermiteSimpson(Transcription):
-    """Hermite-Simpson collocation (compressed): Simpson quadrature, order 4 in the states."""
+    """Hermite-Simpson collocation: Simpson quadrature, order 4 in the states.
+
+    The optimiser uses the separated form: the midpoint states are NLP variables tied to
+    :meth:`midpoint_state` by an equality, so each model evaluation depends on one point.
+    """
 
     name = "hermite_simpson"
     weights = (1.0 / 6.0, 4.0 / 6.0, 1.0 / 6.0)

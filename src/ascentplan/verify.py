@@ -3,7 +3,9 @@
 The delivered schedule (piecewise-linear controls on the NLP's node times, exactly the
 representation the transcription assumes) is re-flown with ``solve_ivp``; the burnout
 states are compared and every limit's peak is taken on the replay's dense time grid,
-between nodes too. Default tolerances (overridable in the problem's ``mesh`` block):
+between nodes too. Tolerances (the ``mesh`` block of the problem sets speed_tolerance,
+speed_tolerance_fraction, which also applies to altitudes, and limit_tolerance_fraction;
+the defaults are shown):
 
 * burnout speed within max(0.5 m/s, 0.05 % of the speed);
 * burnout altitude within max(10 m, 0.05 % of the altitude), and so the apogee when it

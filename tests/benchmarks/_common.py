@@ -1,4 +1,4 @@
-"""Shared pieces of the optimiser benchmarks: machine record, point subprocesses, JSON and README output."""
+"""Shared pieces of the optimiser benchmarks: machine record, point runs, JSON and README."""
 
 from __future__ import annotations
 
@@ -117,18 +117,25 @@ def write_result(name: str, data: dict, quick: bool) -> Path:
 
 # ----------------------------------------------------------------- README tables
 
-def _f(value, digits=3):
+def _f(value, digits=4):
+    """A table cell: about ``digits`` significant figures, no exponent above 1e-3."""
     if value is None:
         return "-"
     if isinstance(value, str):
         return value
     if isinstance(value, bool):
         return "yes" if value else "no"
-    if isinstance(value, float) and math.isnan(value):
-        return "-"
     if isinstance(value, int):
         return str(value)
-    return f"{value:.{digits}g}" if abs(value) >= 1e-3 or value == 0 else f"{value:.2e}"
+    if math.isnan(value):
+        return "-"
+    size = abs(value)
+    if size == 0:
+        return "0"
+    if size < 1e-3:
+        return f"{value:.2e}"
+    decimals = max(0, digits - 1 - math.floor(math.log10(size)))
+    return f"{value:.{decimals}f}"
 
 
 def _table(header, rows):
@@ -235,8 +242,9 @@ def _baseline_section(data):
     rows = []
     for r in data["methods"]:
         rows.append([r["method"], r["wall_time_s"], r["iterations"], r.get("integrations"),
-                     r["status"], r["objective_m_s"], r["verified_objective_m_s"],
-                     r["verified_peak_q_kpa"], r["q_bound_kpa"], r["q_excess_percent"]])
+                     r["status"], f"{r['objective_m_s']:.3f}",
+                     f"{r['verified_objective_m_s']:.3f}", f"{r['verified_peak_q_kpa']:.3f}",
+                     r["q_bound_kpa"], f"{r['q_excess_percent']:+.3f}"])
     lines += _table(header, rows) + [""]
     ratio = data.get("ratio", {})
     if ratio:

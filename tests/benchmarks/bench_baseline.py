@@ -1,4 +1,4 @@
-"""Wall time and verified burnout speed of ascentplan against a single-shooting SLSQP baseline on a q-limited vertical ascent.
+"""Speed and verified burnout speed of ascentplan against a single-shooting SLSQP baseline.
 
 Run: ``python tests/benchmarks/bench_baseline.py`` (full: 20 throttle segments, three
 ascentplan solves) or ``python tests/benchmarks/bench_baseline.py --quick`` (6 segments,

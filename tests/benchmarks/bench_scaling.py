@@ -33,6 +33,9 @@ FIT_FROM = 200
 QUICK_FIT_FROM = 20
 #: no larger SX point is tried once one SX build has taken longer than this [s]
 SX_BUILD_LIMIT = 60.0
+#: the traced pass repeats the whole point; above this timed total [s] it is left out to
+#: keep the run within its time budget
+TRACED_PASS_LIMIT = 60.0
 GOAL_EXPONENT = 1.2
 
 
@@ -189,8 +192,11 @@ def main(argv=None) -> int:
                 point = {"problem": name, "symbolic": symbolic, "nodes": nodes}
                 timed = run_point(__file__, ["timed", name, symbolic, str(nodes)])
                 point.update(timed)
-                if "error" not in timed:
+                if "error" not in timed and timed["total_s"] <= TRACED_PASS_LIMIT:
                     point.update(run_point(__file__, ["traced", name, symbolic, str(nodes)]))
+                elif "error" not in timed:
+                    point["traced_pass"] = (f"skipped: the timed pass took "
+                                            f"{timed['total_s']:.0f} s")
                 points.append(point)
                 if "error" in point:
                     print(f"{name} {symbolic} {nodes}: {point['error']}", flush=True)
@@ -243,7 +249,8 @@ def main(argv=None) -> int:
                    "refinement; 'total' is their sum. Peak RSS is getrusage ru_maxrss of "
                    "that process (interpreter, CasADi graphs, IPOPT and MUMPS included). "
                    "'Peak traced Python' is the tracemalloc peak of a second fresh process "
-                   "doing guess, build and solve. The Goddard problem has one phase; the "
+                   "doing guess, build and solve (left out where the timed pass took more than "
+                   f"{TRACED_PASS_LIMIT:.0f} s). The Goddard problem has one phase; the "
                    "two-stage example has a vertical rise (a quarter of the nodes) and two "
                    "burns. Single measurements, no repetitions."),
         "machine": info, "nodes": list(node_list), "fit_from_nodes": fit_from,

@@ -1,0 +1,19 @@
+"""The name lists that problem files are validated against match what the code implements."""
+
+from ascentplan.pipeline import OBJECTIVE_UNITS
+from ascentplan.problem import LIMIT_UNITS, OBJECTIVES, SCHEMES, Limits
+from ascentplan.transcription import TRANSCRIPTIONS
+from ascentplan.verify import LIMIT_QUANTITIES
+
+
+def test_schemes_match_the_transcriptions():
+    assert set(SCHEMES) == set(TRANSCRIPTIONS)
+
+
+def test_objectives_have_units():
+    assert set(OBJECTIVES) == set(OBJECTIVE_UNITS)
+
+
+def test_limits_have_units_and_replay_quantities():
+    names = set(Limits().__dataclass_fields__)
+    assert names == set(LIMIT_UNITS) == set(LIMIT_QUANTITIES)
