@@ -26,7 +26,7 @@ import numpy as np
 
 from . import dynamics
 from .constants import G0
-from .problem import LIMIT_UNITS, Phase, Problem, phase_plan
+from .problem import Phase, Problem, phase_plan
 from .transcription import TRANSCRIPTIONS
 
 _LIMIT_ORDER = ("max_dynamic_pressure", "max_axial_acceleration", "max_q_alpha", "min_altitude")
@@ -588,9 +588,3 @@ class AscentNLP:
             controls=controls, payload_mass=float(payload[0]), propellant=list(prop),
             dry=list(dry), shadow_prices=shadow, constraint_violation=viol,
             multipliers={"lam_x": lam_x, "lam_g": lam_g, "lam_p": lam_p}, binding=binding)
-
-
-def shadow_price_user_units(name: str, value_si: float, objective_unit_factor: float):
-    """Convert d objective/d bound from SI bound units to the limit's user unit."""
-    unit, factor = LIMIT_UNITS[name]
-    return value_si * factor / objective_unit_factor, unit

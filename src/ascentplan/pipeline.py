@@ -165,23 +165,13 @@ def _replay(problem: Problem, solution: NLPSolution):
 
 
 def _with_solution_masses(problem: Problem, solution: NLPSolution) -> Problem:
+    """The problem with the optimised payload and propellant masses (dry masses follow the
+    structural ratios, thrusts a given thrust-to-weight ratio)."""
     if problem.mass_split is None and problem.objective != "max_payload":
         return problem
-    veh = problem.vehicle
-    stages = tuple(replace(s, propellant_mass=float(mp), dry_mass=float(md))
-                   for s, mp, md in zip(veh.stages, solution.propellant, solution.dry))
-    new_vehicle = replace(veh, payload_mass=float(solution.payload_mass), stages=stages)
-    if problem.mass_split is not None:
-        # thrust scaled with stack mass where the file gives a thrust-to-weight ratio
-        fixed = []
-        for i, s in enumerate(new_vehicle.stages):
-            if s.thrust_to_weight is not None:
-                from .constants import G0
-                s = replace(s, thrust_vacuum=s.thrust_to_weight * G0 *
-                            new_vehicle.ignition_mass(i))
-            fixed.append(s)
-        new_vehicle = replace(new_vehicle, stages=tuple(fixed))
-    return replace(problem, vehicle=new_vehicle)
+    vehicle = problem.vehicle.with_propellant(solution.propellant,
+                                              payload_mass=solution.payload_mass)
+    return replace(problem, vehicle=vehicle)
 
 
 def _guess_schedule(problem: Problem):
