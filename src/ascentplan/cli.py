@@ -170,8 +170,50 @@ def _add_report(subparsers) -> None:
     p.set_defaults(handler=_cmd_report)
 
 
+def _cmd_sweep(args) -> int:
+    load_problem(args.file)  # report a bad file before any worker starts
+    from .sweep import sweep_command
+
+    return sweep_command(args.file, limit=args.limit, values=args.values,
+                         dispersion=args.dispersion, samples=args.samples, seed=args.seed,
+                         workers=args.workers, scheduler=args.scheduler, out=args.out,
+                         retry_failed=args.retry_failed, progress=not args.quiet)
+
+
+def _add_sweep(subparsers) -> None:
+    p = subparsers.add_parser(
+        "sweep", help="trade study: a sweep of one limit, or a dispersion of vehicle data",
+        description="Solve many variants of a problem on local worker processes, or on a "
+                    "Dask scheduler given by --scheduler. Rows are written to study.csv and "
+                    "study.jsonl as they finish; running the same command again resumes. "
+                    "Exit status 0 when every point finished (whatever its status), 1 when "
+                    "any point raised, 2 bad input.")
+    p.add_argument("file", metavar="FILE", help="YAML problem file")
+    what = p.add_mutually_exclusive_group(required=True)
+    what.add_argument("--limit", metavar="NAME",
+                      help="limit to sweep, e.g. max_dynamic_pressure (with --values)")
+    what.add_argument("--dispersion", nargs="+", metavar="KEY=KIND:SPREAD",
+                      help="dispersed inputs, e.g. vehicle.stages[0].thrust_vacuum=normal:0.02 "
+                           "(relative sigma or half-width; with --samples)")
+    p.add_argument("--values", nargs="+", metavar="V",
+                   help="bound values with units, e.g. '20 kPa' '25 kPa' '30 kPa'")
+    p.add_argument("--samples", type=int, default=None, help="dispersion samples")
+    p.add_argument("--seed", type=int, default=0, help="dispersion random seed (default 0)")
+    where = p.add_mutually_exclusive_group()
+    where.add_argument("--workers", type=int, default=None,
+                       help="local worker processes (default: one per core)")
+    where.add_argument("--scheduler", metavar="ADDRESS", default=None,
+                       help="Dask scheduler address, e.g. tcp://10.0.0.5:8786 "
+                            "(needs the 'cluster' extra)")
+    p.add_argument("--out", metavar="DIR", default=None, help="study folder")
+    p.add_argument("--retry-failed", action="store_true",
+                   help="on resume, solve again the points that raised")
+    p.add_argument("--quiet", action="store_true", help="no progress lines")
+    p.set_defaults(handler=_cmd_sweep)
+
+
 #: each verb adds its own parser; a new verb is one more function here
-_VERBS = (_add_check, _add_simulate, _add_solve, _add_split, _add_report)
+_VERBS = (_add_check, _add_simulate, _add_solve, _add_split, _add_report, _add_sweep)
 
 
 def build_parser() -> argparse.ArgumentParser:
