@@ -2,7 +2,8 @@
 
 Run: ``python tests/benchmarks/bench_scaling.py`` (full: 50 to 1600 nodes per phase, the
 Goddard problem and the two-stage example, both symbolic types) or
-``python tests/benchmarks/bench_scaling.py --quick`` (20 and 40 nodes). Writes
+``python tests/benchmarks/bench_scaling.py --quick`` (20 and 40 nodes); ``--refit``
+recomputes the fits, verdicts and plot from the stored points. Writes
 ``results/benchmarks/scaling.json`` and ``scaling.png`` (``results/benchmarks/quick/``
 for a quick run) and regenerates the README there.
 
@@ -16,6 +17,7 @@ Python-heavy first guess several times over).
 from __future__ import annotations
 
 import argparse
+import json
 import sys
 import time
 
@@ -120,6 +122,40 @@ def _fit(points: list[dict], key: str) -> float:
     return float(np.polyfit(n, y, 1)[0])
 
 
+def _analyse(points: list[dict], fit_from: int) -> tuple[list, list]:
+    """Growth exponents over the upper points of each series, and the goal verdicts."""
+    for p in points:
+        if "error" not in p:
+            p["nlp_solve_per_iteration_s"] = p["nlp_solve_s"] / max(p["iterations"], 1)
+    fits, goals = [], []
+    for name in PROBLEMS:
+        for symbolic in SYMBOLIC:
+            upper = [p for p in points if p["problem"] == name and p["symbolic"] == symbolic
+                     and "error" not in p and p["nodes"] >= fit_from]
+            if len(upper) < 2:
+                continue
+            fit = {"problem": name, "symbolic": symbolic, "nodes": [p["nodes"] for p in upper],
+                   "total_exponent": _fit(upper, "total_s"),
+                   "build_exponent": _fit(upper, "build_s"),
+                   "solve_exponent": _fit(upper, "nlp_solve_s"),
+                   "iterations_exponent": _fit(upper, "iterations"),
+                   "solve_per_iteration_exponent": _fit(upper, "nlp_solve_per_iteration_s")}
+            fits.append(fit)
+            met = fit["total_exponent"] <= GOAL_EXPONENT
+            goals.append({
+                "goal": f"{name}, {symbolic}: total time grows no faster than "
+                        f"nodes^{GOAL_EXPONENT:g}",
+                "met": bool(met),
+                "evidence": (f"fitted exponent {fit['total_exponent']:.2f} over "
+                             f"{fit['nodes'][0]}-{fit['nodes'][-1]} nodes per phase "
+                             f"({len(upper)} points; build {fit['build_exponent']:.2f}, IPOPT "
+                             f"solve {fit['solve_exponent']:.2f}, iterations "
+                             f"{fit['iterations_exponent']:.2f}, IPOPT time per iteration "
+                             f"{fit['solve_per_iteration_exponent']:.2f})."),
+            })
+    return fits, goals
+
+
 def _plot(points, fits, path, goal_exponent):
     import matplotlib
 
@@ -165,14 +201,30 @@ def _plot(points, fits, path, goal_exponent):
     plt.close(fig)
 
 
+def _refit(quick: bool) -> int:
+    out_dir = QUICK_RESULTS if quick else RESULTS
+    path = out_dir / "scaling.json"
+    data = json.loads(path.read_text())
+    data["fits"], data["goals"] = _analyse(data["points"], data["fit_from_nodes"])
+    _plot(data["points"], data["fits"], out_dir / data["plot"], data["goal_exponent"])
+    write_result("scaling", data, quick)
+    print(f"refitted {path}")
+    return 0
+
+
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--quick", action="store_true", help="20 and 40 nodes only")
     parser.add_argument("--point", nargs=4, metavar=("MODE", "PROBLEM", "SYMBOLIC", "NODES"),
                         help=argparse.SUPPRESS)
+    parser.add_argument("--refit", action="store_true",
+                        help="recompute the exponents, verdicts and plot from the stored "
+                             "points without measuring again")
     args = parser.parse_args(argv)
     if args.point:
         return _point(args.point)
+    if args.refit:
+        return _refit(args.quick)
 
     start = time.perf_counter()
     info = machine_info()
@@ -210,31 +262,7 @@ def main(argv=None) -> int:
                 if symbolic == "SX" and point["build_s"] > SX_BUILD_LIMIT:
                     too_slow_at = (nodes, point["build_s"])
 
-    fits, goals = [], []
-    for name in PROBLEMS:
-        for symbolic in SYMBOLIC:
-            upper = [p for p in points if p["problem"] == name and p["symbolic"] == symbolic
-                     and "error" not in p and p["nodes"] >= fit_from]
-            if len(upper) < 2:
-                continue
-            fit = {"problem": name, "symbolic": symbolic, "nodes": [p["nodes"] for p in upper],
-                   "total_exponent": _fit(upper, "total_s"),
-                   "build_exponent": _fit(upper, "build_s"),
-                   "solve_exponent": _fit(upper, "nlp_solve_s"),
-                   "iterations_exponent": _fit(upper, "iterations")}
-            fits.append(fit)
-            met = fit["total_exponent"] <= GOAL_EXPONENT
-            goals.append({
-                "goal": f"{name}, {symbolic}: total time grows no faster than "
-                        f"nodes^{GOAL_EXPONENT:g}",
-                "met": bool(met),
-                "evidence": (f"fitted exponent {fit['total_exponent']:.2f} over "
-                             f"{fit['nodes'][0]}-{fit['nodes'][-1]} nodes per phase "
-                             f"({len(upper)} points; build {fit['build_exponent']:.2f}, IPOPT "
-                             f"solve {fit['solve_exponent']:.2f}, iterations "
-                             f"{fit['iterations_exponent']:.2f})."),
-            })
-
+    fits, goals = _analyse(points, fit_from)
     out_dir = QUICK_RESULTS if args.quick else RESULTS
     out_dir.mkdir(parents=True, exist_ok=True)
     plot_name = "scaling.png"
