@@ -2,7 +2,8 @@
 vehicles (the two- and three-stage split examples).
 
 Run: python tests/benchmarks/bench_split.py [--quick]
-Writes results/benchmarks/split.json and results/benchmarks/split.md.
+Writes results/benchmarks/split.json and split.md (results/benchmarks/quick/ with
+--quick) and regenerates the README there.
 """
 
 from __future__ import annotations
@@ -19,7 +20,7 @@ HERE = Path(__file__).resolve().parent
 ROOT = HERE.parent.parent
 sys.path.insert(0, str(HERE))
 
-from _common import machine_info  # noqa: E402
+from _common import machine_info, write_readme  # noqa: E402
 
 from ascentplan.loader import load_problem  # noqa: E402
 from ascentplan.pipeline import clear_cache, solve  # noqa: E402
@@ -94,6 +95,7 @@ def main(argv=None) -> int:
               "flying the rocket-equation split optimally first (its result seeds the "
               "coupled solve)."]
     (out / "split.md").write_text("\n".join(lines) + "\n")
+    write_readme(out)
     return 0
 
 
