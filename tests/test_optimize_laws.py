@@ -7,16 +7,16 @@ import numpy as np
 import pytest
 
 from ascentplan.pipeline import solve
-from ascentplan.transcription import TRANSCRIPTIONS
+from ascentplan.collocation import COLLOCATION_SCHEMES
 
 from cases import flat_vacuum_problem
 
 
 def test_scheme_tableaux():
     # quadrature weights sum to one; Simpson's rule integrates cubics exactly (common practice)
-    for cls in TRANSCRIPTIONS.values():
+    for cls in COLLOCATION_SCHEMES.values():
         assert sum(cls.weights) == pytest.approx(1.0, abs=1e-15)
-    hs = TRANSCRIPTIONS["hermite_simpson"]()
+    hs = COLLOCATION_SCHEMES["hermite_simpson"]()
     f = lambda t: 3 * t**3 - t**2 + 2 * t + 1  # noqa: E731
     F = lambda t: 0.75 * t**4 - t**3 / 3 + t**2 + t  # noqa: E731
     h = 0.7

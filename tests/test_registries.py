@@ -2,12 +2,12 @@
 
 from ascentplan.pipeline import OBJECTIVE_UNITS
 from ascentplan.problem import LIMIT_UNITS, OBJECTIVES, SCHEMES, Limits
-from ascentplan.transcription import TRANSCRIPTIONS
+from ascentplan.collocation import COLLOCATION_SCHEMES
 from ascentplan.verify import LIMIT_QUANTITIES
 
 
-def test_schemes_match_the_transcriptions():
-    assert set(SCHEMES) == set(TRANSCRIPTIONS)
+def test_schemes_match_the_collocation_classes():
+    assert set(SCHEMES) == set(COLLOCATION_SCHEMES)
 
 
 def test_objectives_have_units():

@@ -27,7 +27,7 @@ import numpy as np
 from . import dynamics
 from .constants import G0
 from .problem import Phase, Problem, phase_plan
-from .transcription import TRANSCRIPTIONS
+from .collocation import COLLOCATION_SCHEMES
 
 _LIMIT_ORDER = ("max_dynamic_pressure", "max_axial_acceleration", "max_q_alpha", "min_altitude")
 
@@ -135,7 +135,7 @@ class AscentNLP:
         self.problem = problem
         self.kind = problem.dynamics
         self.model = dynamics.flight_model(problem)
-        self.scheme = TRANSCRIPTIONS[problem.mesh.scheme]()
+        self.scheme = COLLOCATION_SCHEMES[problem.mesh.scheme]()
         self.phases = phase_plan(problem)
         npp = nodes_per_phase or problem.mesh.nodes_per_phase
         self.nodes = [nodes_for_phase(ph, npp) for ph in self.phases]

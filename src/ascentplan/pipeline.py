@@ -1,4 +1,4 @@
-"""The one orchestrator: load, guess, transcribe, solve, verify, refine, report.
+"""The one orchestrator: load, guess, discretise, solve, verify, refine, report.
 
 ``solve(problem)`` returns a :class:`Result`; failure is a status in it, never an
 exception (exceptions are kept for bad input).

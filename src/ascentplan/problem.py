@@ -224,7 +224,7 @@ class MassSplit:
 
 @dataclass(frozen=True)
 class Mesh:
-    """Transcription and verification settings."""
+    """Collocation mesh and verification settings."""
 
     scheme: str = "hermite_simpson"
     nodes_per_phase: int = 40

@@ -261,7 +261,7 @@ def _solver_section(summary: dict) -> str:
     if not isinstance(s, dict):
         return ""
     scheme = s.get("scheme", "n/a")
-    rows = [("transcription", SCHEMES.get(scheme, _words(scheme))),
+    rows = [("collocation", SCHEMES.get(scheme, _words(scheme))),
             ("nodes per phase (final mesh)", str(s.get("nodes", "n/a"))),
             ("mesh refinements", str(s.get("mesh_refinements", "n/a"))),
             ("IPOPT iterations (all meshes)", str(s.get("iterations", "n/a"))),

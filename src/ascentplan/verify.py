@@ -1,7 +1,7 @@
 """Verification of an optimised schedule by independent forward integration.
 
 The delivered schedule (piecewise-linear controls on the NLP's node times, exactly the
-representation the transcription assumes) is re-flown with ``solve_ivp``; the burnout
+representation the collocation assumes) is re-flown with ``solve_ivp``; the burnout
 states are compared and every limit's peak is taken on the replay's dense time grid,
 between nodes too. Tolerances (the ``mesh`` block of the problem sets speed_tolerance,
 speed_tolerance_fraction, which also applies to altitudes, and limit_tolerance_fraction;

@@ -4,7 +4,7 @@ A scheme is data on a small base class, in the manner of Runge-Kutta tableaux: t
 quadrature weights of the node, midpoint and next-node derivatives, and whether an
 interval midpoint (with its interpolated state) exists.
 
-Contract of a :class:`Transcription` subclass
+Contract of a :class:`CollocationScheme` subclass
 ---------------------------------------------
 * ``weights`` = (w_k, w_c, w_k1) with sum 1: the state increment over an interval of
   length h is h (w_k f_k + w_c f_c + w_k1 f_k1).
@@ -25,7 +25,7 @@ M. Kelly, SIAM Review 59(4) 849-904, 2017.
 from __future__ import annotations
 
 
-class Transcription:
+class CollocationScheme:
     """Base class of a collocation scheme (see the module docstring for the contract)."""
 
     name: str = ""
@@ -46,7 +46,7 @@ class Transcription:
         return x_k1 - x_k - h * increment
 
 
-class HermiteSimpson(Transcription):
+class HermiteSimpson(CollocationScheme):
     """Hermite-Simpson collocation: Simpson quadrature, order 4 in the states.
 
     The optimiser uses the separated form: the midpoint states are NLP variables tied to
@@ -59,7 +59,7 @@ class HermiteSimpson(Transcription):
     order = 4
 
 
-class Trapezoidal(Transcription):
+class Trapezoidal(CollocationScheme):
     """Trapezoidal collocation: trapezoidal-rule quadrature, order 2."""
 
     name = "trapezoidal"
@@ -69,4 +69,4 @@ class Trapezoidal(Transcription):
 
 
 #: collocation schemes by the name used in problem files
-TRANSCRIPTIONS = {cls.name: cls for cls in (HermiteSimpson, Trapezoidal)}
+COLLOCATION_SCHEMES = {cls.name: cls for cls in (HermiteSimpson, Trapezoidal)}
