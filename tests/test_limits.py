@@ -65,3 +65,20 @@ def test_relaxing_never_lowers_the_optimum(free_result, limited_result):
         previous = r.solution.objective
     # a bound far above the peak reproduces the unconstrained optimum
     assert previous == pytest.approx(free_result.solution.objective, rel=1e-6)
+
+
+def test_expanded_derivatives_give_the_same_optimum(limited_result):
+    # the SX-expanded Hessian and Jacobian are the same functions as the MX ones
+    # (CasADi's expansion), so a re-solve lands on the same optimum to solver tolerance
+    from ascentplan.optimize import AscentNLP
+    from ascentplan.pipeline import first_guess
+
+    problem = vertical_q_problem(max_q=Q_MAX)
+    guess, scales = first_guess(problem, problem.mesh.nodes_per_phase)
+    nlp = AscentNLP(problem, scales)
+    plain = nlp.solve(problem, guess)
+    assert nlp.accelerate()
+    fast = nlp.solve(problem, guess)
+    assert plain.status == fast.status == "optimal"
+    assert fast.objective == pytest.approx(plain.objective, rel=1e-9)
+    assert fast.iterations == plain.iterations

@@ -32,10 +32,18 @@ _NLP_CACHE: dict = {}
 _CACHE_SIZE = 8
 
 
+#: solves of one cached NLP after which its derivatives are expanded to SX (see
+#: AscentNLP.accelerate): the expansion costs about as much as two or three solves
+ACCELERATE_AFTER = 2
+
+
 def _cached_nlp(problem: Problem, scales: dict, nodes: int) -> tuple[AscentNLP, bool]:
     key = (structure_key(problem), nodes)
     nlp = _NLP_CACHE.get(key)
     if nlp is not None:
+        nlp.reuses = getattr(nlp, "reuses", 0) + 1
+        if nlp.reuses >= ACCELERATE_AFTER:
+            nlp.accelerate()
         return nlp, True
     nlp = AscentNLP(problem, scales, nodes_per_phase=nodes)
     if len(_NLP_CACHE) >= _CACHE_SIZE:
