@@ -38,11 +38,11 @@ _VERDICTS = {
 #: summary keys rendered by a section of their own; any other key goes to "Other results"
 _KNOWN_KEYS = {"problem", "dynamics", "status", "message", "objective", "burnout", "apogee",
                "limits", "verification", "stages", "payload_mass_kg", "liftoff_mass_kg",
-               "solver", "losses_m_s", "peaks", "phases", "events", "caution"}
+               "solver", "losses_m_s", "peaks", "phases", "events", "caution", "mass_split"}
 
 #: PNG file stems in the order the report shows them (overview first); others follow
-_PLOT_ORDER = ("overview", "altitude", "speed", "dynamic_pressure", "axial_acceleration",
-               "q_alpha", "throttle", "pitch", "mass")
+_PLOT_ORDER = ("overview", "split_map", "altitude", "speed", "dynamic_pressure",
+               "axial_acceleration", "q_alpha", "throttle", "pitch", "mass")
 
 _STYLE = """
 body { font-family: sans-serif; margin: 2em auto; max-width: 70em; padding: 0 1em;
@@ -321,6 +321,39 @@ def _events_section(summary: dict) -> str:
                                      numeric={1, 2, 3, 4, 5}))
 
 
+def _split_section(summary: dict) -> str:
+    split = summary.get("mass_split")
+    if not isinstance(split, dict):
+        return ""
+    unit = split.get("objective_unit", "")
+    rows = []
+    for st in split.get("stages", []):
+        rows.append([st.get("name", ""), _num(st.get("written_propellant_mass_kg"), 1),
+                     _num(st.get("rocket_equation_propellant_mass_kg"), 1),
+                     _num(st.get("analytic_propellant_mass_kg"), 1),
+                     _num(st.get("coupled_propellant_mass_kg"), 1),
+                     _num(st.get("coupled_dry_mass_kg"), 1)])
+    table = _table(["stage", "as written [kg]", "rocket equation [kg]",
+                    "flown with the rocket-equation proportions [kg]",
+                    "coupled optimum [kg]", "coupled dry mass [kg]"], rows,
+                   numeric={1, 2, 3, 4, 5})
+    held = _words(split.get("hold", ""))
+    objectives = _key_values([
+        (f"{held} held", ""),
+        (f"rocket-equation split flown optimally [{unit}]",
+         f"{_num(split.get('analytic_objective'), 3)} ({split.get('analytic_status', '')})"),
+        (f"coupled optimum [{unit}]", _num(split.get("coupled_objective"), 3)),
+        ("liftoff mass, rocket-equation split [kg]",
+         _num(split.get("analytic_liftoff_mass_kg"), 1)),
+        ("liftoff mass, coupled [kg]", _num(split.get("coupled_liftoff_mass_kg"), 1)),
+    ])
+    note = ("<p>The rocket-equation split ignores gravity, drag and the limits; flown "
+            "optimally it achieves the first objective, the split optimised with the "
+            "trajectory the second. The map of the objective around the optimum, when "
+            "computed, is in split_map.png below and in summary.json.</p>")
+    return _section("Stage-mass split", table + "\n" + objectives + "\n" + note)
+
+
 def _other_section(summary: dict) -> str:
     extra = {k: v for k, v in summary.items() if k not in _KNOWN_KEYS and not str(
         k).startswith("_")}
@@ -402,6 +435,7 @@ def render_html(summary: dict, plots: list[Path] = ()) -> str:
         _verification_section(summary),
         _stages_section(summary),
         _losses_section(summary),
+        _split_section(summary),
         _solver_section(summary),
         _peaks_section(summary),
         _phases_section(summary),
