@@ -611,8 +611,10 @@ class AscentNLP:
                 binding.append(name)
         if success:
             status = "optimal"
-        elif ret in ("Infeasible_Problem_Detected", "Restoration_Failed",
-                     "Local_Infeasibility") or viol > 1e-4:
+        elif ret in ("Infeasible_Problem_Detected", "Local_Infeasibility") or (
+                ret == "Restoration_Failed" and viol > 1e-4):
+            # IPOPT's own verdict; running out of iterations or time is a failure to
+            # converge, whatever the constraint violation where it stopped
             status = "infeasible"
         else:
             status = "failed"
