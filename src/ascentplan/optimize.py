@@ -38,7 +38,7 @@ IPOPT_OPTIONS = {
     "ipopt.tol": 1e-8,
     "ipopt.acceptable_tol": 1e-6,
     "ipopt.acceptable_iter": 10,
-    "ipopt.max_iter": 1000,
+    "ipopt.max_iter": 500,
     "ipopt.max_wall_time": 300.0,
     "ipopt.print_level": 0,
     "ipopt.sb": "yes",
