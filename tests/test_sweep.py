@@ -321,3 +321,19 @@ def test_dask_cluster_gives_the_local_results(sweep_run, tmp_path):
         assert b["max_dynamic_pressure.shadow_price"] == pytest.approx(
             a["max_dynamic_pressure.shadow_price"], rel=1e-6)
     assert sorted(r["index"] for r in _jsonl(tmp_path / "dask" / STUDY_JSONL)) == [0, 1, 2, 3]
+
+
+def test_sweep_verb_runs_through_the_command_line(problem_file, tmp_path, capsys):
+    # the CLI front door: a bad limit name exits 2 without a traceback; a good sweep exits 0
+    # and writes the study files
+    from ascentplan.cli import main
+
+    out = tmp_path / "cli"
+    assert main(["sweep", str(problem_file), "--limit", "max_dynamic_presure", "--values",
+                 "30 kPa", "--out", str(out)]) == 2
+    assert "Traceback" not in capsys.readouterr().err
+    status = main(["sweep", str(problem_file), "--limit", "max_dynamic_pressure", "--values",
+                   "30 kPa", "40 kPa", "--workers", "1", "--out", str(out), "--quiet"])
+    assert status == 0
+    assert (out / "study.csv").exists() and (out / "study.jsonl").exists()
+    assert "max_dynamic_pressure" in capsys.readouterr().out
