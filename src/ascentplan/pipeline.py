@@ -16,6 +16,7 @@ from .dynamics import altitude_speed_fpa
 from .guess import guess_from_solution, guess_from_trajectory, scales_for
 from .optimize import AscentNLP, NLPSolution, structure_key
 from .problem import LIMIT_UNITS, Problem, phase_plan
+from .simulate import PhaseControls, PhaseSchedule, simulate
 from .verify import Verification, verify
 
 #: objective units shown to the user: name -> (unit, SI-to-unit divisor)
@@ -156,8 +157,6 @@ class Result:
 
 
 def _replay(problem: Problem, solution: NLPSolution):
-    from .simulate import PhaseControls, PhaseSchedule, simulate
-
     phases = phase_plan(problem)
     entries = []
     for j, ph in enumerate(phases):
@@ -201,8 +200,6 @@ def _guess_schedule(problem: Problem):
 
 def first_guess(problem: Problem, nodes: int):
     """A guess and scales from a forward simulation of the default schedule."""
-    from .simulate import simulate
-
     traj = simulate(problem, _guess_schedule(problem),
                     coast_to_apogee=problem.objective == "max_apogee")
     guess = guess_from_trajectory(problem, traj, nodes)
