@@ -8,7 +8,7 @@ from ascentplan.aero import ConstantDrag
 from ascentplan.atmosphere import ExponentialAtmosphere, Vacuum
 from ascentplan.constants import G0
 from ascentplan.gravity import ConstantGravity, InverseSquareGravity
-from ascentplan.problem import (Aerodynamics, Launch, Limits, Mesh, Planet, Problem, Stage,
+from ascentplan.problem import (Aerodynamics, Limits, Mesh, Planet, Problem, Stage,
                                 Target, Vehicle)
 
 

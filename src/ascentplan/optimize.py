@@ -171,7 +171,6 @@ class AscentNLP:
             sym = self._sym.sym(name, *shape)
             start = sum(int(np.prod(s.shape)) for s in w_parts)
             w_parts.append(sym)
-            n = int(np.prod(shape))
             lbw.append(np.broadcast_to(np.asarray(lb, dtype=float).reshape(-1, 1) if np.ndim(lb) else lb,
                                        shape).flatten(order="F"))
             ubw.append(np.broadcast_to(np.asarray(ub, dtype=float).reshape(-1, 1) if np.ndim(ub) else ub,

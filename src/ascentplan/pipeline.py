@@ -157,9 +157,8 @@ class Result:
 
 
 def _replay(problem: Problem, solution: NLPSolution):
-    phases = phase_plan(problem)
     entries = []
-    for j, ph in enumerate(phases):
+    for j in range(len(phase_plan(problem))):
         U = solution.controls[j]
         rel = solution.times[j] - solution.times[j][0]
         pitch = U[1] if U.shape[0] > 1 else None
