@@ -181,12 +181,11 @@ _HYDROSTATIC = G0_1976 * MOLECULAR_WEIGHT_AIR / GAS_CONSTANT_1976
 _BLEND_WIDTH = 50.0
 
 #: the layer formulas take the logarithm of their own temperature line, which
-#: crosses zero far outside its layer. It is floored smoothly at _FLOOR_TEMPERATURE
-#: with a softplus of width _FLOOR_WIDTH; where the floor acts the layer's blend
-#: weight is below 1e-300, and where the weight matters (within many blend widths
-#: of the layer) the floored value equals the exact one to round-off.
+#: crosses zero far outside its layer. It is floored at _FLOOR_TEMPERATURE with a
+#: plain max (one operation, where a smooth floor cost a fifth of the model's
+#: expression): the floor acts only where the layer's blend weight is below 1e-300, so
+#: the blended result and its derivatives are untouched in floating point.
 _FLOOR_TEMPERATURE = 20.0
-_FLOOR_WIDTH = 2.0
 
 #: geometric altitudes below this [m] are held at its value: keeps the geopotential
 #: formula away from its pole at -r0; no trajectory goes there.
@@ -223,8 +222,7 @@ def _layer_log_pressure(k, geopotential, base_log_pressure, temperature=None):
                 - _HYDROSTATIC * (geopotential - _LAYER_BASE_HEIGHT[k]) / base_temperature)
     if temperature is None:
         temperature = _layer_temperature(k, geopotential)
-    floored = _FLOOR_TEMPERATURE + _FLOOR_WIDTH * m_.softplus(
-        (temperature - _FLOOR_TEMPERATURE) / _FLOOR_WIDTH)
+    floored = m_.fmax(temperature, _FLOOR_TEMPERATURE)
     return base_log_pressure - _HYDROSTATIC / lapse * m_.log(floored / base_temperature)
 
 
