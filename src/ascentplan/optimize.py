@@ -290,7 +290,19 @@ class AscentNLP:
             Xp = xs_off + xs_sc * X  # physical
             prop_vec = ca.vertcat(thrust[ph.stage] if ph.powered else 0.0,
                                   stage.exhaust_speed)
-            node_fn = self._node_function(ph, stage)
+            lim = p.limits
+            # only the path quantities this phase constrains are computed at its points
+            rows = []
+            if lim.max_dynamic_pressure is not None:
+                rows.append("dynamic_pressure")
+            if lim.max_axial_acceleration is not None and ph.powered:
+                rows.append("axial_acceleration")
+            if lim.max_q_alpha is not None and ph.kind == "burn":
+                rows.append("q_alpha")
+            if lim.min_altitude is not None:
+                rows.append("altitude")
+            row = {name: i for i, name in enumerate(rows)}
+            node_fn = self._node_function(ph, stage, rows)
             F_nodes, Q_nodes = node_fn.map(N)(Xp, U, prop_vec)
             Fs = F_nodes / xs_sc  # scaled state derivative per physical second
             dtau = 1.0 / (N - 1)
@@ -309,19 +321,22 @@ class AscentNLP:
                 Q_all = Q_nodes
             constrain(f"defects{j}", self.scheme.defect(Xk, Xk1, Fk, Fk1, Fc, h), 0.0, 0.0)
 
-            # path limits (rows of Q: q, axial acceleration, q*alpha, altitude)
-            lim = p.limits
-            if lim.max_dynamic_pressure is not None:
-                constrain("max_dynamic_pressure", Q_all[0, :] / lim_par["max_dynamic_pressure"],
+            # path limits, on the rows of Q this phase computes
+            if "dynamic_pressure" in row:
+                constrain("max_dynamic_pressure",
+                          Q_all[row["dynamic_pressure"], :] / lim_par["max_dynamic_pressure"],
                           -np.inf, 1.0)
-            if lim.max_axial_acceleration is not None and ph.powered:
+            if "axial_acceleration" in row:
                 constrain("max_axial_acceleration",
-                          Q_all[1, :] / lim_par["max_axial_acceleration"], -np.inf, 1.0)
-            if lim.max_q_alpha is not None and ph.kind == "burn":
-                constrain("max_q_alpha", Q_all[2, :] / lim_par["max_q_alpha"], -1.0, 1.0)
-            if lim.min_altitude is not None:
+                          Q_all[row["axial_acceleration"], :]
+                          / lim_par["max_axial_acceleration"], -np.inf, 1.0)
+            if "q_alpha" in row:
+                constrain("max_q_alpha", Q_all[row["q_alpha"], :] / lim_par["max_q_alpha"],
+                          -1.0, 1.0)
+            if "altitude" in row:
                 # not at liftoff: the pad state is fixed, a constraint there is degenerate
-                altitudes = Q_all[3, 1:] if j == 0 else Q_all[3, :]
+                k_alt = row["altitude"]
+                altitudes = Q_all[k_alt, 1:] if j == 0 else Q_all[k_alt, :]
                 constrain("min_altitude", (altitudes - lim_par["min_altitude"]) / xs_sc[0],
                           0.0, np.inf)
 
@@ -426,8 +441,9 @@ class AscentNLP:
         return True
 
     # ------------------------------------------------------------- model pieces
-    def _node_function(self, ph: Phase, stage) -> ca.Function:
-        """SX Function (x_phys, u, [thrust, c]) -> (xdot, [q, n_axial, q_alpha, h])."""
+    def _node_function(self, ph: Phase, stage, rows=("dynamic_pressure", "axial_acceleration",
+                                                     "q_alpha", "altitude")) -> ca.Function:
+        """SX Function (x_phys, u, [thrust, c]) -> (xdot, [the flight quantities in rows])."""
         nx, nu = self.n_x, self.n_u
         x = ca.SX.sym("x", nx)
         u = ca.SX.sym("u", nu)
@@ -437,8 +453,9 @@ class AscentNLP:
         params = (self.model, prop)
         xdot = dynamics.rhs(0.0, x, u, params)
         fq = dynamics.flight_quantities(x, u, self.model, prop)
-        qa = fq.get("q_alpha", ca.SX(0.0))
-        Q = ca.vertcat(fq["dynamic_pressure"], fq["axial_acceleration"], qa, fq["altitude"])
+        Q = ca.vertcat(*[fq.get(name, ca.SX(0.0)) for name in rows])
+        if Q.shape[0] == 0:
+            Q = ca.SX(1, 1)
         return ca.Function("node", [x, u, pp], [xdot, Q], self._function_options)
 
     def _add_targets(self, xb, constrain):
