@@ -82,3 +82,33 @@ def test_expanded_derivatives_give_the_same_optimum(limited_result):
     assert plain.status == fast.status == "optimal"
     assert fast.objective == pytest.approx(plain.objective, rel=1e-9)
     assert fast.iterations == plain.iterations
+
+
+def test_q_alpha_and_payload_to_orbit_on_the_three_stage_example():
+    # the invented medium launcher: maximum payload to a 250 km circular orbit with max-q,
+    # acceleration and q-alpha limits; every active limit holds on the replay within the
+    # 0.5 % verification tolerance and the orbit is reached (circular speed sqrt(mu/r):
+    # Newton, common practice)
+    import math
+    from dataclasses import replace
+    from pathlib import Path
+
+    from ascentplan.loader import load_problem
+
+    path = Path(__file__).resolve().parent.parent / "problems" / "medium_launcher.yaml"
+    problem = load_problem(path)
+    problem = replace(problem, mesh=replace(problem.mesh, nodes_per_phase=30))
+    r = solve(problem)
+    assert r.status == "optimal", r.message
+    limits = {lim["name"]: lim for lim in r.limits()}
+    assert limits["max_q_alpha"]["active"]
+    for lim in limits.values():
+        assert lim["peak"] <= lim["bound"] * 1.005, lim
+    radius = problem.planet.radius + problem.target.circular_orbit_altitude
+    v_circular = math.sqrt(problem.planet.gravitational_parameter / radius)
+    burnout = r.burnout()
+    assert burnout["speed_m_s"] == pytest.approx(v_circular, abs=0.5)
+    assert burnout["altitude_m"] == pytest.approx(problem.target.circular_orbit_altitude,
+                                                  abs=10.0)
+    assert abs(burnout["flight_path_angle_deg"]) < 0.01
+    assert r.solved_problem.vehicle.payload_mass > 0.0
