@@ -8,7 +8,7 @@ from scipy.interpolate import PchipInterpolator
 from ascentplan._registry import REQUIRED, Param
 from ascentplan.aero import DRAG_MODELS, ConstantDrag, MachTableDrag, SphereDrag
 
-# the example C_D(Mach) table of the design brief (an invented vehicle)
+# an invented C_D(Mach) table of plausible shape (no real vehicle)
 MACH = [0.0, 0.8, 1.0, 1.2, 2.0, 4.0]
 CD = [0.30, 0.32, 0.50, 0.48, 0.38, 0.30]
 

@@ -321,7 +321,7 @@ def test_delta_v_and_liftoff_mass_give_the_scaled_payload():
 # ---------------------------------------------------------------- vehicle helper
 
 def _vehicle(structural_ratio=None):
-    # Invented two-stage vehicle of the design brief's example problem file.
+    # An invented two-stage vehicle with plausible numbers.
     return Vehicle(payload_mass=500.0, stages=(
         Stage("first", 24000.0, 2400.0, 520e3, 296.0 * G0, structural_ratio=structural_ratio),
         Stage("second", 6000.0, 700.0, 110e3, 336.0 * G0)))
