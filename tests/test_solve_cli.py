@@ -100,3 +100,24 @@ def test_solve_bad_file_exits_2_without_traceback(tmp_path):
     assert run.returncode == 2
     assert "Traceback" not in run.stdout + run.stderr
     assert "propellant_mass" in run.stderr
+
+
+def test_report_verb_on_a_folder_without_summary_exits_2(tmp_path, capsys):
+    assert main(["report", str(tmp_path)]) == 2
+    captured = capsys.readouterr()
+    assert "summary.json" in captured.err and "Traceback" not in captured.err
+
+
+def test_split_verb_prints_the_rocket_equation_split(capsys):
+    # the verb prints the split of ascentplan.staging (checked against Curtis and SciPy in
+    # test_staging.py): its total ideal velocity increment, with the caution; an option
+    # that does not fit the mode exits 2
+    from ascentplan.loader import load_problem as load
+    from ascentplan.staging import split_for_vehicle
+
+    assert main(["split", str(PROBLEMS / "medium_launcher.yaml")]) == 0
+    out = capsys.readouterr().out
+    assert "liftoff mass held" in out and "Caution" in out
+    total = split_for_vehicle(load(PROBLEMS / "medium_launcher.yaml").vehicle).total_delta_v
+    assert f"{total:.1f} m/s" in out
+    assert main(["split", str(PROBLEMS / "medium_launcher.yaml"), "--delta-v", "9000"]) == 2
