@@ -5,6 +5,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any, Callable
 
+import numpy as np
+
 REQUIRED = object()
 
 
@@ -43,3 +45,21 @@ def unknown_name_message(kind: str, name: Any, registry: dict) -> str:
 
 
 ModelFactory = Callable[..., Any]
+
+
+def float_tuple(name: str, values, unit: str = "") -> tuple[float, ...]:
+    """A model's list parameter as a tuple of finite floats, or a ValueError naming it.
+
+    ``unit`` (e.g. ``"m"``) is shown in brackets in the message when given.
+    """
+    where = f" [{unit}]" if unit else ""
+    try:
+        array = np.asarray(values, dtype=float)
+    except (TypeError, ValueError):
+        raise ValueError(f"{name}: must be a list of numbers{where}, got {values!r}") from None
+    if array.ndim != 1:
+        raise ValueError(f"{name}: must be a flat list of numbers{where}, got {values!r}")
+    bad = np.flatnonzero(~np.isfinite(array))
+    if bad.size:
+        raise ValueError(f"{name}: must be finite, got {float(array[bad[0]])!r} at index {bad[0]}")
+    return tuple(float(v) for v in array)

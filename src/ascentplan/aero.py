@@ -13,7 +13,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from . import _math as m_
-from ._registry import REQUIRED, Param
+from ._registry import REQUIRED, Param, float_tuple
 
 
 @dataclass(frozen=True)
@@ -42,19 +42,6 @@ class ConstantDrag:
     def drag_coefficient(self, mach, reynolds=None):
         """C_D [-] (shaped like ``mach``)."""
         return 0.0 * mach + self.cd
-
-
-def _float_tuple(name, values):
-    try:
-        array = np.asarray(values, dtype=float)
-    except (TypeError, ValueError):
-        raise ValueError(f"{name}: must be a list of numbers, got {values!r}") from None
-    if array.ndim != 1:
-        raise ValueError(f"{name}: must be a flat list of numbers, got {values!r}")
-    bad = np.flatnonzero(~np.isfinite(array))
-    if bad.size:
-        raise ValueError(f"{name}: must be finite, got {float(array[bad[0]])!r} at index {bad[0]}")
-    return tuple(float(v) for v in array)
 
 
 @dataclass(frozen=True)
@@ -88,8 +75,8 @@ class MachTableDrag:
     }
 
     def __post_init__(self):
-        mach = _float_tuple("mach", self.mach)
-        cd = _float_tuple("cd", self.cd)
+        mach = float_tuple("mach", self.mach)
+        cd = float_tuple("cd", self.cd)
         if len(mach) < 2:
             raise ValueError(f"mach: needs at least 2 points, got {list(mach)}")
         if len(cd) != len(mach):

@@ -20,7 +20,7 @@ from typing import Any
 import numpy as np
 
 from . import _math as m_
-from ._registry import REQUIRED, Param
+from ._registry import REQUIRED, Param, float_tuple
 
 #: ratio of specific heats of air (U.S. Standard Atmosphere 1976)
 GAMMA_AIR = 1.4
@@ -339,19 +339,6 @@ class StandardAtmosphere1976:
 _MAX_EFOLDS_BELOW_TABLE = 20.0
 
 
-def _as_float_tuple(name, values, unit):
-    try:
-        array = np.asarray(values, dtype=float)
-    except (TypeError, ValueError):
-        raise ValueError(f"{name}: must be a list of numbers [{unit}], got {values!r}") from None
-    if array.ndim != 1:
-        raise ValueError(f"{name}: must be a flat list of numbers [{unit}], got {values!r}")
-    bad = np.flatnonzero(~np.isfinite(array))
-    if bad.size:
-        raise ValueError(f"{name}: must be finite, got {float(array[bad[0]])!r} at index {bad[0]}")
-    return tuple(float(v) for v in array)
-
-
 def _check_positive(name, values, unit):
     for i, v in enumerate(values):
         if v <= 0.0:
@@ -406,8 +393,8 @@ class TableAtmosphere:
     }
 
     def __post_init__(self):
-        altitude = _as_float_tuple("altitude", self.altitude, "m")
-        density = _as_float_tuple("density", self.density, "kg/m^3")
+        altitude = float_tuple("altitude", self.altitude, "m")
+        density = float_tuple("density", self.density, "kg/m^3")
         if len(altitude) < 2:
             raise ValueError(f"altitude: needs at least 2 points, got {list(altitude)}")
         if len(density) != len(altitude):
@@ -426,7 +413,7 @@ class TableAtmosphere:
                                  f"{density[i - 1]!r} kg/m^3 at {altitude[i - 1]!r} m")
         temperature = None
         if self.temperature is not None:
-            temperature = _as_float_tuple("temperature", self.temperature, "K")
+            temperature = float_tuple("temperature", self.temperature, "K")
             if len(temperature) != len(altitude):
                 raise ValueError(f"temperature: needs one value per altitude "
                                  f"({len(altitude)}), got {len(temperature)}: "

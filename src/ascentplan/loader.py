@@ -16,7 +16,7 @@ from ._registry import REQUIRED, unknown_name_message
 from .constants import G0, PLANETS
 from .problem import (OBJECTIVES, SCHEMES, Aerodynamics, Launch, Limits, MassSplit, Mesh,
                       Planet, Problem, Stage, TimeSchedule, Target, Vehicle)
-from .units import UnitError, describe_unit, from_si, list_to_si, show, to_si
+from .units import UnitError, describe_unit, expected_text, from_si, list_to_si, show, to_si
 
 __all__ = ["ProblemError", "load_problem", "problem_from_dict", "read_problem_file"]
 
@@ -155,7 +155,7 @@ class _Reader:
         p = _join(path, key)
         if section is None or section.get(key) is None:
             if required:
-                self.error(p, f"missing; expected {_expected(unit)}")
+                self.error(p, f"missing; expected {expected_text(unit)}")
                 return None
             return default
         raw = section[key]
@@ -244,13 +244,6 @@ def _kind_of(value: Any) -> str:
     if isinstance(value, (int, float)):
         return "a number"
     return type(value).__name__
-
-
-def _expected(unit: str) -> str:
-    description, example = describe_unit(unit)
-    if description == "a plain number":
-        return "a plain number"
-    return f"{description} (e.g. '{example}')"
 
 
 def _in_unit(value: float, unit: str, shown: str) -> str:
@@ -495,7 +488,7 @@ def _read_model(r: _Reader, raw: Any, path: str, registry: dict, kind: str,
         if given is None:
             if param.default is REQUIRED:
                 r.error(p, f"missing; the {name} {kind} model needs it "
-                           f"({param.doc or _expected(param.unit)})")
+                           f"({param.doc or expected_text(param.unit)})")
             else:
                 kwargs[pname] = param.default
             continue

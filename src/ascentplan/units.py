@@ -107,7 +107,8 @@ def show(value: Any) -> str:
     return str(value)
 
 
-def _expected(unit: str) -> str:
+def expected_text(unit: str) -> str:
+    """What a value of ``unit`` looks like, for error messages."""
     description, example = describe_unit(unit)
     if description == "a plain number":
         return "a plain number"
@@ -118,7 +119,7 @@ def _parse_string(text: str, unit: str, key_path: str) -> float:
     match = _NUMBER.match(text)
     if match is None:
         raise UnitError(f"{key_path}: cannot read {text!r} as a number with a unit; "
-                        f"expected {_expected(unit)}")
+                        f"expected {expected_text(unit)}")
     number, unit_text = float(match.group(1)), match.group(2)
     if not unit_text:
         # a bare number in quotes (YAML reads 1e5 as a string) counts like a plain number
@@ -132,12 +133,12 @@ def _parse_string(text: str, unit: str, key_path: str) -> float:
             detail = ", ".join(map(str, detail))
         hint = f" (unknown unit {detail!r})" if detail else ""
         raise UnitError(f"{key_path}: cannot read the unit of {text!r}{hint}; "
-                        f"expected {_expected(unit)}") from None
+                        f"expected {expected_text(unit)}") from None
     if _signature(given) != _signature(unit):
         hint = ""
         if _signature(unit) == _signature("m/s^2") and _signature(given) == _signature("kg"):
             hint = " ('g' is the gram; write 'g0' for standard gravity)"
-        raise UnitError(f"{key_path}: expected {_expected(unit)}, got {text!r} "
+        raise UnitError(f"{key_path}: expected {expected_text(unit)}, got {text!r} "
                         f"({_found(given)}){hint}")
     return float(Quantity(number, given).to(unit).magnitude)
 
@@ -168,19 +169,19 @@ def to_si(value: Any, unit: str, key_path: str) -> float:
         the wrong dimension; the message starts with ``key_path``.
     """
     if isinstance(value, bool):
-        raise UnitError(f"{key_path}: expected {_expected(unit)}, got {value} (a yes/no value)")
+        raise UnitError(f"{key_path}: expected {expected_text(unit)}, got {value} (a yes/no value)")
     if isinstance(value, (int, float)):
         result = float(value)
     elif isinstance(value, str):
         result = _parse_string(value, unit, key_path)
     elif value is None:
-        raise UnitError(f"{key_path}: no value given; expected {_expected(unit)}")
+        raise UnitError(f"{key_path}: no value given; expected {expected_text(unit)}")
     elif isinstance(value, (list, tuple)):
-        raise UnitError(f"{key_path}: expected {_expected(unit)}, got a list {value!r}")
+        raise UnitError(f"{key_path}: expected {expected_text(unit)}, got a list {value!r}")
     elif isinstance(value, dict):
-        raise UnitError(f"{key_path}: expected {_expected(unit)}, got a mapping {value!r}")
+        raise UnitError(f"{key_path}: expected {expected_text(unit)}, got a mapping {value!r}")
     else:
-        raise UnitError(f"{key_path}: expected {_expected(unit)}, got {value!r}")
+        raise UnitError(f"{key_path}: expected {expected_text(unit)}, got {value!r}")
     if not math.isfinite(result):
         raise UnitError(f"{key_path}: expected a finite value, got {show(value)}")
     return result
@@ -231,9 +232,9 @@ def list_to_si(value: Any, unit: str, key_path: str) -> tuple[float, ...]:
             given = ureg.parse_units(list_unit) if list_unit else ureg.dimensionless
         except Exception:
             raise UnitError(f"{key_path}.unit: cannot read the unit {list_unit!r}; "
-                            f"expected {_expected(unit)}") from None
+                            f"expected {expected_text(unit)}") from None
         if _signature(given) != _signature(unit):
-            raise UnitError(f"{key_path}.unit: expected {_expected(unit)}, got "
+            raise UnitError(f"{key_path}.unit: expected {expected_text(unit)}, got "
                             f"{list_unit!r} ({_found(given)})")
         converted = Quantity(np.asarray(items, dtype=float), given).to(unit).magnitude
         if not np.all(np.isfinite(converted)):
