@@ -295,6 +295,15 @@ _SECTIONS = (("examples.json", _examples_section), ("scaling.json", _scaling_sec
              ("baseline.json", _baseline_section), ("split.json", _split_section))
 
 
+def finish(name: str, data: dict, quick: bool) -> int:
+    """Write a benchmark's JSON (and the README), print where and each goal's verdict."""
+    path = write_result(name, data, quick)
+    print(f"wrote {path}")
+    for g in data.get("goals", []):
+        print(("MET: " if g["met"] else "NOT MET: ") + g["goal"] + ". " + g["evidence"])
+    return 0
+
+
 def write_readme(out_dir: Path = RESULTS) -> Path:
     """Render ``README.md`` in ``out_dir`` from the benchmark JSON files found there."""
     lines = ["# ascentplan optimiser benchmarks", "",

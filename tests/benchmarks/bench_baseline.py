@@ -28,7 +28,7 @@ from dataclasses import replace
 
 import numpy as np
 
-from _common import load_average, machine_info, median, problem_path, write_result
+from _common import finish, load_average, machine_info, median, problem_path
 
 SEGMENTS = 20
 SAMPLES_PER_SEGMENT = 5
@@ -261,11 +261,7 @@ def main(argv=None) -> int:
         "goals": goals, "run_time_s": time.perf_counter() - start,
         "load_average_end": load_average(),
     }
-    path = write_result("baseline", data, args.quick)
-    print(f"wrote {path}")
-    for g in goals:
-        print(("MET: " if g["met"] else "NOT MET: ") + g["goal"] + ". " + g["evidence"])
-    return 0
+    return finish("baseline", data, args.quick)
 
 
 if __name__ == "__main__":

@@ -21,8 +21,7 @@ import argparse
 import sys
 import time
 
-from _common import (emit_point, load_average, machine_info, median, problem_path, run_point,
-                     write_result)
+from _common import (finish, emit_point, load_average, machine_info, median, problem_path, run_point)
 
 EXAMPLES = ("sounding_rocket", "small_launcher", "medium_launcher", "goddard")
 QUICK_EXAMPLES = ("small_launcher", "goddard")
@@ -215,11 +214,7 @@ def main(argv=None) -> int:
         "machine": info, "repeats": repeats, "examples": examples, "goals": goals,
         "run_time_s": time.perf_counter() - start, "load_average_end": load_average(),
     }
-    path = write_result("examples", data, args.quick)
-    print(f"wrote {path}")
-    for g in goals:
-        print(("MET: " if g["met"] else "NOT MET: ") + g["goal"] + ". " + g["evidence"])
-    return 0
+    return finish("examples", data, args.quick)
 
 
 if __name__ == "__main__":

@@ -23,7 +23,7 @@ import time
 
 import numpy as np
 
-from _common import (RESULTS, QUICK_RESULTS, emit_point, load_average, machine_info,
+from _common import (finish, RESULTS, QUICK_RESULTS, emit_point, load_average, machine_info,
                      problem_path, run_point, write_result)
 
 PROBLEMS = ("goddard", "small_launcher")
@@ -286,11 +286,7 @@ def main(argv=None) -> int:
         "fits": fits, "goal_exponent": GOAL_EXPONENT, "goals": goals, "plot": plot_name,
         "run_time_s": time.perf_counter() - start, "load_average_end": load_average(),
     }
-    path = write_result("scaling", data, args.quick)
-    print(f"wrote {path}")
-    for g in goals:
-        print(("MET: " if g["met"] else "NOT MET: ") + g["goal"] + "; " + g["evidence"])
-    return 0
+    return finish("scaling", data, args.quick)
 
 
 if __name__ == "__main__":
