@@ -151,8 +151,9 @@ class AscentNLP:
         self.n_u = self.model.n_controls
         self.n_stages = len(problem.vehicle.stages)
         self._scales = scales
+        if symbolic not in ("MX", "SX"):
+            raise ValueError(f"symbolic: must be 'MX' or 'SX', got {symbolic!r}")
         self._sym = ca.MX if symbolic == "MX" else ca.SX
-        self._function_options = {"never_inline": True} if symbolic == "SXcall" else {}
         self._build()
         self.build_time = _time.perf_counter() - t0
 
@@ -459,7 +460,7 @@ class AscentNLP:
         Q = ca.vertcat(*[fq.get(name, ca.SX(0.0)) for name in rows])
         if Q.shape[0] == 0:
             Q = ca.SX(1, 1)
-        return ca.Function("node", [x, u, pp], [xdot, Q], self._function_options)
+        return ca.Function("node", [x, u, pp], [xdot, Q])
 
     def _add_targets(self, xb, constrain):
         t = self.problem.target
