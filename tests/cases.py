@@ -4,11 +4,11 @@ from __future__ import annotations
 
 from dataclasses import replace
 
-from ascentplan.aero import ConstantDrag
-from ascentplan.atmosphere import ExponentialAtmosphere, Vacuum
+from ascentplan.models.aero import ConstantDrag
+from ascentplan.models.atmosphere import ExponentialAtmosphere, Vacuum
 from ascentplan.constants import G0
-from ascentplan.gravity import ConstantGravity, InverseSquareGravity
-from ascentplan.problem import (Aerodynamics, Limits, Mesh, Planet, Problem, Stage,
+from ascentplan.models.gravity import ConstantGravity, InverseSquareGravity
+from ascentplan.problem.model import (Aerodynamics, Limits, Mesh, Planet, Problem, Stage,
                                 Target, Vehicle)
 
 

@@ -6,7 +6,7 @@ import pytest
 from scipy.interpolate import PchipInterpolator
 
 from ascentplan._registry import REQUIRED, Param
-from ascentplan.aero import DRAG_MODELS, ConstantDrag, MachTableDrag, SphereDrag
+from ascentplan.models.aero import DRAG_MODELS, ConstantDrag, MachTableDrag, SphereDrag
 
 # an invented C_D(Mach) table of plausible shape (no real vehicle)
 MACH = [0.0, 0.8, 1.0, 1.2, 2.0, 4.0]

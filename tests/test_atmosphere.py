@@ -8,7 +8,7 @@ from fluids.atmosphere import ATMOSPHERE_1976
 from scipy.interpolate import PchipInterpolator
 
 from ascentplan._registry import REQUIRED, Param
-from ascentplan.atmosphere import (
+from ascentplan.models.atmosphere import (
     ATMOSPHERES,
     R_AIR,
     AtmosphereState,

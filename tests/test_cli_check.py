@@ -132,9 +132,9 @@ def _fake_simulator(monkeypatch, status=0):
         calls.append((problem, out, schedule))
         return status
 
-    module = types.ModuleType("ascentplan.simulate")
+    module = types.ModuleType("ascentplan.replay.simulate")
     module.simulate_command = simulate_command
-    monkeypatch.setitem(sys.modules, "ascentplan.simulate", module)
+    monkeypatch.setitem(sys.modules, "ascentplan.replay.simulate", module)
     return calls
 
 

@@ -5,8 +5,8 @@ import numpy as np
 import pytest
 
 from ascentplan.constants import G0, PLANETS
-from ascentplan.gravity import GRAVITY_MODELS, ConstantGravity, InverseSquareGravity
-from ascentplan.problem import Planet
+from ascentplan.models.gravity import GRAVITY_MODELS, ConstantGravity, InverseSquareGravity
+from ascentplan.problem.model import Planet
 
 EARTH = Planet(name="earth", **PLANETS["earth"])
 

@@ -70,7 +70,7 @@ def test_relaxing_never_lowers_the_optimum(free_result, limited_result):
 def test_expanded_derivatives_give_the_same_optimum(limited_result):
     # the SX-expanded Hessian and Jacobian are the same functions as the MX ones
     # (CasADi's expansion), so a re-solve lands on the same optimum to solver tolerance
-    from ascentplan.optimize import AscentNLP
+    from ascentplan.transcription.nlp import AscentNLP
     from ascentplan.pipeline import first_guess
 
     problem = vertical_q_problem(max_q=Q_MAX)
@@ -93,7 +93,7 @@ def test_q_alpha_and_payload_to_orbit_on_the_three_stage_example():
     from dataclasses import replace
     from pathlib import Path
 
-    from ascentplan.loader import load_problem
+    from ascentplan.problem.loader import load_problem
 
     path = Path(__file__).resolve().parent.parent / "problems" / "medium_launcher.yaml"
     problem = load_problem(path)

@@ -13,10 +13,10 @@ import yaml
 
 from ascentplan import cli
 from ascentplan._registry import REQUIRED, Param
-from ascentplan.aero import DRAG_MODELS
-from ascentplan.atmosphere import ATMOSPHERES
-from ascentplan.loader import ProblemError, load_problem, problem_from_dict
-from ascentplan.units import UnitError, list_to_si, to_si
+from ascentplan.models.aero import DRAG_MODELS
+from ascentplan.models.atmosphere import ATMOSPHERES
+from ascentplan.problem.loader import ProblemError, load_problem, problem_from_dict
+from ascentplan.problem.units import UnitError, list_to_si, to_si
 
 ROOT = Path(__file__).resolve().parents[1]
 EXAMPLES = sorted((ROOT / "problems").glob("*.yaml"))

@@ -7,13 +7,13 @@ import math
 import numpy as np
 import pytest
 
-from ascentplan.aero import ConstantDrag
-from ascentplan.atmosphere import ExponentialAtmosphere
+from ascentplan.models.aero import ConstantDrag
+from ascentplan.models.atmosphere import ExponentialAtmosphere
 from ascentplan.constants import PLANETS
-from ascentplan.gravity import ConstantGravity, InverseSquareGravity
-from ascentplan.problem import (Aerodynamics, Launch, Planet, Problem, Stage, TimeSchedule,
+from ascentplan.models.gravity import ConstantGravity, InverseSquareGravity
+from ascentplan.problem.model import (Aerodynamics, Launch, Planet, Problem, Stage, TimeSchedule,
                                 Vehicle)
-from ascentplan.simulate import LOSS_QUANTITIES, simulate
+from ascentplan.replay.simulate import LOSS_QUANTITIES, simulate
 
 EARTH = Planet("earth", **PLANETS["earth"])
 LOSS_TERMS = ("gravity", "drag", "steering", "back_pressure")

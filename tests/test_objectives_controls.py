@@ -9,11 +9,11 @@ from dataclasses import replace
 import numpy as np
 import pytest
 
-from ascentplan.aero import ConstantDrag
-from ascentplan.atmosphere import Vacuum
-from ascentplan.gravity import ConstantGravity
+from ascentplan.models.aero import ConstantDrag
+from ascentplan.models.atmosphere import Vacuum
+from ascentplan.models.gravity import ConstantGravity
 from ascentplan.pipeline import solve
-from ascentplan.problem import Aerodynamics, Mesh, Planet, Problem, Stage, Target, Vehicle
+from ascentplan.problem.model import Aerodynamics, Mesh, Planet, Problem, Stage, Target, Vehicle
 
 from cases import vertical_q_problem
 

@@ -7,7 +7,7 @@ import numpy as np
 import pytest
 
 from ascentplan.pipeline import solve
-from ascentplan.collocation import COLLOCATION_SCHEMES
+from ascentplan.transcription.collocation import COLLOCATION_SCHEMES
 
 from cases import flat_vacuum_problem
 

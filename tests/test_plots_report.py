@@ -14,18 +14,18 @@ from html.parser import HTMLParser
 import numpy as np
 import pytest
 
-from ascentplan import outputs
-from ascentplan.aero import ConstantDrag
-from ascentplan.atmosphere import ExponentialAtmosphere
+from ascentplan.output import files as outputs
+from ascentplan.models.aero import ConstantDrag
+from ascentplan.models.atmosphere import ExponentialAtmosphere
 from ascentplan.cautions import CAUTION
 from ascentplan.constants import G0, PLANETS
-from ascentplan.gravity import InverseSquareGravity
+from ascentplan.models.gravity import InverseSquareGravity
 from ascentplan.pipeline import solve
-from ascentplan.plots import DPI, _overview_figure, _panel_figure, plot_trajectory, result_nodes
-from ascentplan.problem import (Aerodynamics, Launch, Limits, Mesh, Planet, Problem, Stage,
+from ascentplan.output.plots import DPI, _overview_figure, _panel_figure, plot_trajectory, result_nodes
+from ascentplan.problem.model import (Aerodynamics, Launch, Limits, Mesh, Planet, Problem, Stage,
                                 Target, Vehicle, phase_plan)
-from ascentplan.report import render_report_from_folder, write_report
-from ascentplan.simulate import simulate
+from ascentplan.output.report import render_report_from_folder, write_report
+from ascentplan.replay.simulate import simulate
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 EARTH = Planet("earth", **PLANETS["earth"])

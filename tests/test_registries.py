@@ -1,9 +1,9 @@
 """The name lists that problem files are validated against match what the code implements."""
 
 from ascentplan.pipeline import OBJECTIVE_UNITS
-from ascentplan.problem import LIMIT_UNITS, OBJECTIVES, SCHEMES, Limits
-from ascentplan.collocation import COLLOCATION_SCHEMES
-from ascentplan.verify import LIMIT_QUANTITIES
+from ascentplan.problem.model import LIMIT_UNITS, OBJECTIVES, SCHEMES, Limits
+from ascentplan.transcription.collocation import COLLOCATION_SCHEMES
+from ascentplan.replay.verify import LIMIT_QUANTITIES
 
 
 def test_schemes_match_the_collocation_classes():

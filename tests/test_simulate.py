@@ -11,16 +11,16 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq, minimize_scalar
 
-from ascentplan.aero import ConstantDrag
-from ascentplan.atmosphere import ExponentialAtmosphere, Vacuum
+from ascentplan.models.aero import ConstantDrag
+from ascentplan.models.atmosphere import ExponentialAtmosphere, Vacuum
 from ascentplan.cautions import CAUTION
 from ascentplan.constants import G0, PLANETS
-from ascentplan.gravity import ConstantGravity, InverseSquareGravity
-from ascentplan.outputs import (ScheduleFileError, read_schedule_csv, simulation_summary,
+from ascentplan.models.gravity import ConstantGravity, InverseSquareGravity
+from ascentplan.output.files import (ScheduleFileError, read_schedule_csv, simulation_summary,
                                 write_schedule_csv, write_trajectory_csv)
-from ascentplan.problem import (Aerodynamics, Launch, Planet, Problem, Stage, TimeSchedule,
+from ascentplan.problem.model import (Aerodynamics, Launch, Planet, Problem, Stage, TimeSchedule,
                                 Vehicle, phase_plan)
-from ascentplan.simulate import PhaseControls, PhaseSchedule, simulate, simulate_command
+from ascentplan.replay.simulate import PhaseControls, PhaseSchedule, simulate, simulate_command
 
 @dataclass(frozen=True)
 class _NoGravity:

@@ -11,7 +11,7 @@ from pathlib import Path
 import pytest
 
 from ascentplan.cli import main
-from ascentplan.loader import load_problem
+from ascentplan.problem.loader import load_problem
 from ascentplan.pipeline import solve
 
 PROBLEMS = Path(__file__).resolve().parent.parent / "problems"
@@ -112,8 +112,8 @@ def test_split_verb_prints_the_rocket_equation_split(capsys):
     # the verb prints the split of ascentplan.staging (checked against Curtis and SciPy in
     # test_staging.py): its total ideal velocity increment, with the caution; an option
     # that does not fit the mode exits 2
-    from ascentplan.loader import load_problem as load
-    from ascentplan.staging import split_for_vehicle
+    from ascentplan.problem.loader import load_problem as load
+    from ascentplan.staging.rocket_equation import split_for_vehicle
 
     assert main(["split", str(PROBLEMS / "medium_launcher.yaml")]) == 0
     out = capsys.readouterr().out

@@ -9,12 +9,12 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from ascentplan.aero import ConstantDrag
-from ascentplan.atmosphere import Vacuum
-from ascentplan.gravity import ConstantGravity
-from ascentplan.loader import load_problem
-from ascentplan.problem import Aerodynamics, MassSplit, Mesh, Planet, Problem, Stage, Vehicle
-from ascentplan.split import analytic_split, solve_with_split_comparison, split_map
+from ascentplan.models.aero import ConstantDrag
+from ascentplan.models.atmosphere import Vacuum
+from ascentplan.models.gravity import ConstantGravity
+from ascentplan.problem.loader import load_problem
+from ascentplan.problem.model import Aerodynamics, MassSplit, Mesh, Planet, Problem, Stage, Vehicle
+from ascentplan.staging.coupled import analytic_split, solve_with_split_comparison, split_map
 
 PROBLEMS = Path(__file__).resolve().parent.parent / "problems"
 
@@ -90,8 +90,8 @@ def test_payload_held_minimum_liftoff_mass_is_the_rocket_equation_optimum():
     # payload held, liftoff mass minimised for a burnout speed: with gravity and drag off
     # this is the Lagrange-multiplier problem for that velocity increment (Curtis,
     # "Optimal staging"), so the liftoff mass and the split agree within 0.1 %
-    from ascentplan.problem import Target
-    from ascentplan.staging import optimal_split
+    from ascentplan.problem.model import Target
+    from ascentplan.staging.rocket_equation import optimal_split
 
     base = _vacuum_two_stage()
     speed = 8000.0

@@ -8,8 +8,8 @@ import pytest
 from scipy.optimize import minimize
 
 from ascentplan.constants import G0
-from ascentplan.problem import Stage, Vehicle
-from ascentplan.staging import (StageSplit, StagingError, format_split, optimal_split,
+from ascentplan.problem.model import Stage, Vehicle
+from ascentplan.staging.rocket_equation import (StageSplit, StagingError, format_split, optimal_split,
                                 split_for_vehicle)
 
 # Plausible invented three-stage vehicle: kerosene first stage, better upper stages.

@@ -11,8 +11,8 @@ import numpy as np
 import pytest
 
 from ascentplan.constants import G0
-from ascentplan.loader import load_problem
-from ascentplan.sweep import (STUDY_CSV, STUDY_JSON, STUDY_JSONL, Study, StudyError,
+from ascentplan.problem.loader import load_problem
+from ascentplan.study.sweep import (STUDY_CSV, STUDY_JSON, STUDY_JSONL, Study, StudyError,
                               apply_changes, dispersion, limit_sweep, run_study,
                               summarise_study, sweep_command, sweep_slopes)
 

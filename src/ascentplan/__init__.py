@@ -4,7 +4,7 @@ Direct collocation of the variable-mass ascent, solved by IPOPT through CasADi, 
 verified by independent forward integration with scipy's ``solve_ivp``.
 """
 
-from .cautions import CAUTION
+from ascentplan.cautions import CAUTION
 
 __version__ = "0.1.0"
 

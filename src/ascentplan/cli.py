@@ -8,8 +8,8 @@ from pathlib import Path
 
 import yaml
 
-from . import __version__
-from .loader import ProblemError, load_problem
+from ascentplan import __version__
+from ascentplan.problem.loader import ProblemError, load_problem
 
 #: exit status for a bad problem file or bad usage (argparse uses 2 for usage too)
 EXIT_BAD_INPUT = 2
@@ -22,7 +22,7 @@ def _report(error: ProblemError, fallback_source: str) -> None:
 
 
 def _cmd_check(args) -> int:
-    from .summary import vehicle_summary
+    from ascentplan.output.check_text import vehicle_summary
 
     status = 0
     for i, path in enumerate(args.files):
@@ -41,7 +41,7 @@ def _cmd_check(args) -> int:
 def _cmd_simulate(args) -> int:
     problem = load_problem(args.file)
     # imported here so that ``check`` stays quick
-    from .simulate import simulate_command
+    from ascentplan.replay.simulate import simulate_command
 
     out = Path(args.out) if args.out is not None else Path("results") / problem.name
     schedule = Path(args.schedule) if args.schedule is not None else None
@@ -78,8 +78,8 @@ SOLVE_EXIT = {"optimal": 0, "not_verified": 1, "infeasible": 3, "failed": 4}
 
 def _cmd_solve(args) -> int:
     problem = load_problem(args.file)
-    from .pipeline import format_result, solve, write_outputs
-    from .split import solve_with_split_comparison
+    from ascentplan.pipeline import format_result, solve, write_outputs
+    from ascentplan.staging.coupled import solve_with_split_comparison
 
     out = Path(args.out) if args.out is not None else Path("results") / problem.name
     if problem.mass_split is not None:
@@ -113,8 +113,8 @@ def _add_solve(subparsers) -> None:
 
 def _cmd_split(args) -> int:
     problem = load_problem(args.file)
-    from .cautions import CAUTION
-    from .staging import StagingError, format_split, split_for_vehicle
+    from ascentplan.cautions import CAUTION
+    from ascentplan.staging.rocket_equation import StagingError, format_split, split_for_vehicle
 
     hold = args.hold or (problem.mass_split.hold if problem.mass_split else "liftoff_mass")
     try:
@@ -150,7 +150,7 @@ def _add_split(subparsers) -> None:
 
 
 def _cmd_report(args) -> int:
-    from .report import render_report_from_folder
+    from ascentplan.output.report import render_report_from_folder
 
     try:
         path = render_report_from_folder(Path(args.folder))
@@ -172,7 +172,7 @@ def _add_report(subparsers) -> None:
 
 def _cmd_sweep(args) -> int:
     load_problem(args.file)  # report a bad file before any worker starts
-    from .sweep import sweep_command
+    from ascentplan.study.sweep import sweep_command
 
     return sweep_command(args.file, limit=args.limit, values=args.values,
                          dispersion=args.dispersion, samples=args.samples, seed=args.seed,

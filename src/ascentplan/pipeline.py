@@ -11,13 +11,13 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from .cautions import CAUTION
-from .dynamics import altitude_speed_fpa
-from .guess import guess_from_solution, guess_from_trajectory, scales_for
-from .optimize import AscentNLP, NLPSolution, structure_key
-from .problem import LIMIT_UNITS, Problem, phase_plan
-from .simulate import PhaseControls, PhaseSchedule, simulate
-from .verify import Verification, verify
+from ascentplan.cautions import CAUTION
+from ascentplan.models.dynamics import altitude_speed_fpa
+from ascentplan.transcription.guess import guess_from_solution, guess_from_trajectory, scales_for
+from ascentplan.transcription.nlp import AscentNLP, NLPSolution, structure_key
+from ascentplan.problem.model import LIMIT_UNITS, Problem, phase_plan
+from ascentplan.replay.simulate import PhaseControls, PhaseSchedule, simulate
+from ascentplan.replay.verify import Verification, verify
 
 #: objective units shown to the user: name -> (unit, SI-to-unit divisor)
 OBJECTIVE_UNITS = {
@@ -184,8 +184,8 @@ def _guess_schedule(problem: Problem):
     """The schedule flown for the first guess: the default (full throttle, gravity turn),
     except over a vacuum or with no pitch-over, where a gravity turn never leaves the
     vertical; there, pitch falls linearly from 90 deg to 0 over the estimated burn time."""
-    from .atmosphere import Vacuum
-    from .problem import TimeSchedule
+    from ascentplan.models.atmosphere import Vacuum
+    from ascentplan.problem.model import TimeSchedule
 
     if problem.dynamics != "planar":
         return None
@@ -333,7 +333,7 @@ def write_outputs(result: Result, out_dir) -> list:
     """Write summary.json, trajectory.csv, schedule.csv, the plots and report.html."""
     from pathlib import Path
 
-    from .outputs import write_json, write_schedule_csv, write_trajectory_csv
+    from ascentplan.output.files import write_json, write_schedule_csv, write_trajectory_csv
 
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
@@ -344,8 +344,8 @@ def write_outputs(result: Result, out_dir) -> list:
     written.append(out / "trajectory.csv")
     write_schedule_csv(result.schedule, out / "schedule.csv", phase_plan(result.problem))
     written.append(out / "schedule.csv")
-    from .plots import plot_result
-    from .report import write_report
+    from ascentplan.output.plots import plot_result
+    from ascentplan.output.report import write_report
 
     pngs = list(plot_result(result, out))
     if result.extra.get("mass_split", {}).get("map") and (out / "split_map.png").exists():

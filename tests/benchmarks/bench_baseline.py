@@ -45,8 +45,8 @@ GOAL_RATIO = 100.0
 
 def q_limited_problem():
     """The sounding-rocket example, maximum burnout speed, dynamic-pressure limit only."""
-    from ascentplan.loader import load_problem
-    from ascentplan.problem import Limits
+    from ascentplan.problem.loader import load_problem
+    from ascentplan.problem.model import Limits
 
     problem = load_problem(problem_path("sounding_rocket"))
     bound = problem.limits.max_dynamic_pressure
@@ -58,7 +58,7 @@ class ShootingBaseline:
     """Single shooting with K piecewise-constant throttle values and SLSQP."""
 
     def __init__(self, problem, segments: int, samples_per_segment: int, rtol: float):
-        from ascentplan import dynamics
+        from ascentplan.models import dynamics
 
         self.problem = problem
         self.segments = segments
@@ -81,7 +81,7 @@ class ShootingBaseline:
         """Burnout state, and the sample times and dynamic pressures of one flight."""
         from scipy.integrate import solve_ivp
 
-        from ascentplan import dynamics
+        from ascentplan.models import dynamics
 
         self.integrations += 1
         m0 = self.problem.vehicle.liftoff_mass
@@ -167,7 +167,7 @@ def main(argv=None) -> int:
     samples = QUICK_SAMPLES if args.quick else SAMPLES_PER_SEGMENT
     rtol = QUICK_RTOL if args.quick else RTOL
 
-    from ascentplan.simulate import simulate
+    from ascentplan.replay.simulate import simulate
 
     problem = q_limited_problem()
     bound = problem.limits.max_dynamic_pressure

@@ -39,7 +39,7 @@ def _peak_rss_mb() -> float:
 
 def _cold_point(name: str) -> dict:
     t0 = time.perf_counter()
-    from ascentplan.loader import load_problem
+    from ascentplan.problem.loader import load_problem
     from ascentplan.pipeline import OBJECTIVE_UNITS, clear_cache, solve
     import_s = time.perf_counter() - t0
 
@@ -66,12 +66,12 @@ def _cold_point(name: str) -> dict:
 
 def _parts_point(name: str) -> dict:
     t0 = time.perf_counter()
-    from ascentplan.loader import load_problem
+    from ascentplan.problem.loader import load_problem
     # the replay and the mass update are the pipeline's own steps, timed here one by one
     from ascentplan.pipeline import (_replay, _with_solution_masses, clear_cache,
                                      first_guess, solve)
-    from ascentplan.optimize import AscentNLP
-    from ascentplan.verify import verify
+    from ascentplan.transcription.nlp import AscentNLP
+    from ascentplan.replay.verify import verify
     import_s = time.perf_counter() - t0
 
     problem = load_problem(problem_path(name))
@@ -79,9 +79,9 @@ def _parts_point(name: str) -> dict:
     clear_cache()
     # solve() imports the simulator (and with it scipy.integrate) on first use; timed
     # apart so that the first guess is the guess alone
-    already_imported = "ascentplan.simulate" in sys.modules
+    already_imported = "ascentplan.replay.simulate" in sys.modules
     t0 = time.perf_counter()
-    import ascentplan.simulate  # noqa: F401
+    import ascentplan.replay.simulate  # noqa: F401
     deferred_import_s = 0.0 if already_imported else time.perf_counter() - t0
     t0 = time.perf_counter()
     guess, scales = first_guess(problem, nodes)

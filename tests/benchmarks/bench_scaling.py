@@ -51,11 +51,11 @@ def _rss_mb() -> float:
 def _timed_point(name: str, symbolic: str, nodes: int) -> dict:
     from dataclasses import replace
 
-    from ascentplan.loader import load_problem
-    from ascentplan.optimize import AscentNLP
+    from ascentplan.problem.loader import load_problem
+    from ascentplan.transcription.nlp import AscentNLP
     # the replay and the mass update are the pipeline's own steps, timed here one by one
     from ascentplan.pipeline import _replay, _with_solution_masses, first_guess
-    from ascentplan.verify import verify
+    from ascentplan.replay.verify import verify
 
     problem = load_problem(problem_path(name))
     problem = replace(problem, mesh=replace(problem.mesh, nodes_per_phase=nodes,
@@ -92,8 +92,8 @@ def _traced_point(name: str, symbolic: str, nodes: int) -> dict:
     import tracemalloc
     from dataclasses import replace
 
-    from ascentplan.loader import load_problem
-    from ascentplan.optimize import AscentNLP
+    from ascentplan.problem.loader import load_problem
+    from ascentplan.transcription.nlp import AscentNLP
     from ascentplan.pipeline import first_guess
 
     problem = load_problem(problem_path(name))

@@ -16,10 +16,10 @@ from pathlib import Path
 
 import numpy as np
 
-from .optimize import structural_ratio
-from .pipeline import OBJECTIVE_UNITS, Result, solve
-from .problem import Problem, Vehicle
-from .staging import StageSplit, optimal_split, split_for_vehicle
+from ascentplan.transcription.nlp import structural_ratio
+from ascentplan.pipeline import OBJECTIVE_UNITS, Result, solve
+from ascentplan.problem.model import Problem, Vehicle
+from ascentplan.staging.rocket_equation import StageSplit, optimal_split, split_for_vehicle
 
 #: a rocket-equation stage this small (fraction of its written propellant) is kept at it,
 #: since a stage of no mass has no burn to optimise
@@ -107,7 +107,7 @@ def solve_with_split_comparison(problem: Problem, *, map_points: int | None = No
     if map_points and problem.mass_split.hold == "liftoff_mass" and coupled.status == "optimal":
         info["map"] = split_map(coupled, points=map_points)
         if out_dir is not None:
-            from .plots import plot_split_map
+            from ascentplan.output.plots import plot_split_map
 
             plot_split_map(info["map"], Path(out_dir), unit=unit, objective=problem.objective)
     coupled.extra["mass_split"] = info

@@ -11,7 +11,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field, replace
 from typing import Any
 
-from .constants import G0
+from ascentplan.constants import G0
 
 
 @dataclass(frozen=True)

@@ -12,8 +12,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from . import _math as m_
-from ._registry import REQUIRED, Param, float_tuple
+from ascentplan import _math as m_
+from ascentplan._registry import REQUIRED, Param, float_tuple
 
 
 @dataclass(frozen=True)

@@ -9,8 +9,8 @@ import os
 
 import numpy as np
 
-from .cautions import CAUTION
-from .simulate import LOSS_NAMES, LOSS_QUANTITIES, PhaseControls, PhaseSchedule, Trajectory
+from ascentplan.cautions import CAUTION
+from ascentplan.replay.simulate import LOSS_NAMES, LOSS_QUANTITIES, PhaseControls, PhaseSchedule, Trajectory
 
 #: columns of a schedule CSV, in order
 SCHEDULE_COLUMNS = ("phase", "kind", "stage", "phase_time_s", "time_s", "throttle", "pitch_deg")

@@ -11,12 +11,14 @@ from typing import Any
 
 import yaml
 
-from . import aero, atmosphere, gravity
-from ._registry import REQUIRED, unknown_name_message
-from .constants import G0, PLANETS
-from .problem import (OBJECTIVES, SCHEMES, Aerodynamics, Launch, Limits, MassSplit, Mesh,
+from ascentplan.models import aero
+from ascentplan.models import atmosphere
+from ascentplan.models import gravity
+from ascentplan._registry import REQUIRED, unknown_name_message
+from ascentplan.constants import G0, PLANETS
+from ascentplan.problem.model import (OBJECTIVES, SCHEMES, Aerodynamics, Launch, Limits, MassSplit, Mesh,
                       Planet, Problem, Stage, TimeSchedule, Target, Vehicle)
-from .units import UnitError, describe_unit, expected_text, from_si, list_to_si, show, to_si
+from ascentplan.problem.units import UnitError, describe_unit, expected_text, from_si, list_to_si, show, to_si
 
 __all__ = ["ProblemError", "load_problem", "problem_from_dict", "read_problem_file"]
 

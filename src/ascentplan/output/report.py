@@ -9,9 +9,9 @@ import math
 import re
 from pathlib import Path
 
-from . import __version__
-from .cautions import CAUTION
-from .problem import LIMIT_UNITS, OBJECTIVES, SCHEMES
+from ascentplan import __version__
+from ascentplan.cautions import CAUTION
+from ascentplan.problem.model import LIMIT_UNITS, OBJECTIVES, SCHEMES
 
 __all__ = ["REPORT_NAME", "render_html", "render_report_from_folder", "write_report"]
 
@@ -477,7 +477,7 @@ def write_report(result_or_summary, out_dir, *, plots=None) -> Path:
     if plots is None:
         plots = _folder_plots(out)
         if not plots and result is not None:
-            from .plots import plot_result
+            from ascentplan.output.plots import plot_result
 
             plots = sorted(plot_result(result, out), key=_plot_sort_key)
     path = out / REPORT_NAME

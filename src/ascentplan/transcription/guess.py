@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .optimize import Guess, nodes_for_phase
-from .problem import Problem, phase_plan
+from ascentplan.transcription.nlp import Guess, nodes_for_phase
+from ascentplan.problem.model import Problem, phase_plan
 
 
 def _phase_samples(trajectory, j):

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ._registry import Param
+from ascentplan._registry import Param
 
 
 @dataclass(frozen=True)

@@ -24,10 +24,10 @@ from dataclasses import dataclass, field
 import casadi as ca
 import numpy as np
 
-from . import dynamics
-from .constants import G0
-from .problem import Phase, Problem, phase_plan
-from .collocation import COLLOCATION_SCHEMES
+from ascentplan.models import dynamics
+from ascentplan.constants import G0
+from ascentplan.problem.model import Phase, Problem, phase_plan
+from ascentplan.transcription.collocation import COLLOCATION_SCHEMES
 
 _LIMIT_ORDER = ("max_dynamic_pressure", "max_axial_acceleration", "max_q_alpha", "min_altitude")
 

@@ -50,8 +50,8 @@ from typing import Any
 
 import numpy as np
 
-from .constants import G0
-from .problem import LIMIT_UNITS, Problem
+from ascentplan.constants import G0
+from ascentplan.problem.model import LIMIT_UNITS, Problem
 
 __all__ = ["Study", "StudyError", "StudyIncomplete", "apply_changes", "dispersion",
            "limit_sweep", "run_study", "summarise_study", "sweep_command", "sweep_slopes",
@@ -378,7 +378,7 @@ def _check_values(problem: Problem, changes: dict) -> None:
 
 def _check_problem(problem: Problem, keys) -> None:
     """Checks across fields that the loader makes on a file, repeated for a changed point."""
-    from .loader import liftoff_thrust, site_gravity
+    from ascentplan.problem.loader import liftoff_thrust, site_gravity
 
     where = keys[0] if len(keys) == 1 else "changes " + ", ".join(keys)
     vehicle = problem.vehicle
@@ -488,8 +488,8 @@ def limit_sweep(problem_path, limit_name: str, values) -> Study:
     Study
         One point per value, in the order given.
     """
-    from .loader import load_problem
-    from .units import UnitError, to_si
+    from ascentplan.problem.loader import load_problem
+    from ascentplan.problem.units import UnitError, to_si
 
     if limit_name not in LIMIT_UNITS:
         raise StudyError(f"limit: unknown limit {limit_name!r}{_closest_limit(limit_name)} "
@@ -536,7 +536,7 @@ def dispersion(problem_path, spreads: dict, samples: int, seed: int = 0) -> Stud
     -------
     Study
     """
-    from .loader import load_problem
+    from ascentplan.problem.loader import load_problem
 
     if isinstance(samples, bool) or not isinstance(samples, numbers.Integral) or samples < 1:
         raise StudyError(f"samples: expected a whole number >= 1, got {samples!r}")
@@ -597,7 +597,7 @@ def _file_digest(path: str) -> str:
 
 
 def _base_problem(path: str, digest: str) -> Problem:
-    from .loader import load_problem
+    from ascentplan.problem.loader import load_problem
 
     try:
         found = _file_digest(path)
@@ -623,8 +623,8 @@ def _worker_name() -> str:
 def _solve_chunk(problem_path: str, digest: str, items: list, run: int) -> list:
     """Solve neighbouring points in order, each warm-started from the previous converged
     one of the same NLP structure; one row per point, a raised error in its row."""
-    from .optimize import structure_key
-    from .pipeline import solve
+    from ascentplan.transcription.nlp import structure_key
+    from ascentplan.pipeline import solve
 
     rows = []
     with _SOLVE_LOCK:
@@ -657,7 +657,7 @@ def _finite(value: Any):
 
 
 def _result_row(index, run, changes, result, warm: bool, elapsed: float) -> dict:
-    from .pipeline import OBJECTIVE_UNITS
+    from ascentplan.pipeline import OBJECTIVE_UNITS
 
     problem = result.problem
     unit, divisor = OBJECTIVE_UNITS[problem.objective]
@@ -986,7 +986,7 @@ def run_study(study: Study, out_dir, *, workers: int | None = None, scheduler=No
         When worker processes died and some points were not run; the finished rows are
         written.
     """
-    from .loader import load_problem
+    from ascentplan.problem.loader import load_problem
 
     if not isinstance(study, Study):
         raise StudyError(f"study: expected a Study, got {study!r}")
@@ -1075,7 +1075,7 @@ def run_study(study: Study, out_dir, *, workers: int | None = None, scheduler=No
 
 
 def _objective_unit(problem: Problem) -> str:
-    from .pipeline import OBJECTIVE_UNITS
+    from ascentplan.pipeline import OBJECTIVE_UNITS
 
     return OBJECTIVE_UNITS[problem.objective][0]
 
@@ -1303,8 +1303,8 @@ def sweep_command(problem_path, *, limit: str | None = None, values=None, disper
         0 when every point finished (whatever its status), 1 when any point raised an
         error or was not run, 2 for bad input.
     """
-    from .cautions import CAUTION
-    from .loader import ProblemError, load_problem
+    from ascentplan.cautions import CAUTION
+    from ascentplan.problem.loader import ProblemError, load_problem
 
     try:
         if (limit is None) == (dispersion is None):

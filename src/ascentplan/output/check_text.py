@@ -5,11 +5,13 @@ from __future__ import annotations
 
 import math
 
-from . import aero, atmosphere, gravity
-from .cautions import CAUTION
-from .constants import G0
-from .loader import liftoff_thrust, site_gravity
-from .problem import LIMIT_UNITS, OBJECTIVES, Problem, Vehicle
+from ascentplan.models import aero
+from ascentplan.models import atmosphere
+from ascentplan.models import gravity
+from ascentplan.cautions import CAUTION
+from ascentplan.constants import G0
+from ascentplan.problem.loader import liftoff_thrust, site_gravity
+from ascentplan.problem.model import LIMIT_UNITS, OBJECTIVES, Problem, Vehicle
 
 __all__ = ["ideal_delta_v", "vehicle_summary"]
 

@@ -19,8 +19,8 @@ from typing import Any
 
 import numpy as np
 
-from . import _math as m_
-from ._registry import REQUIRED, Param, float_tuple
+from ascentplan import _math as m_
+from ascentplan._registry import REQUIRED, Param, float_tuple
 
 #: ratio of specific heats of air (U.S. Standard Atmosphere 1976)
 GAMMA_AIR = 1.4

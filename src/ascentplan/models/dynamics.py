@@ -31,8 +31,8 @@ from typing import Any
 import casadi as ca
 import numpy as np
 
-from . import _math as m_
-from .constants import G0
+from ascentplan import _math as m_
+from ascentplan.constants import G0
 
 #: names of the state components of each model
 STATE_NAMES = {

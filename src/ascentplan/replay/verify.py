@@ -20,8 +20,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .dynamics import altitude_speed_fpa
-from .problem import Problem, phase_plan
+from ascentplan.models.dynamics import altitude_speed_fpa
+from ascentplan.problem.model import Problem, phase_plan
 
 #: which trajectory quantity each limit bounds, and on which phase kinds it is imposed
 LIMIT_QUANTITIES = {

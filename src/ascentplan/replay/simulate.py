@@ -14,10 +14,10 @@ import numpy as np
 from scipy.integrate import OdeSolution, solve_ivp
 from scipy.optimize import minimize_scalar
 
-from . import _math as m_
-from . import dynamics
-from .cautions import CAUTION
-from .problem import Phase, TimeSchedule, phase_plan
+from ascentplan import _math as m_
+from ascentplan.models import dynamics
+from ascentplan.cautions import CAUTION
+from ascentplan.problem.model import Phase, TimeSchedule, phase_plan
 
 #: names of the velocity-loss budget terms integrated beside the flight states, in order
 LOSS_NAMES = ("ideal", "gravity", "drag", "steering", "back_pressure")
@@ -1079,7 +1079,7 @@ def simulate_command(problem, out=None, schedule=None) -> int:
         0 when the flight ends normally, 1 on impact or failure, 2 on a bad schedule
         file.
     """
-    from . import outputs
+    from ascentplan.output import files as outputs
 
     if schedule is not None:
         try:

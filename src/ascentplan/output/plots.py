@@ -13,8 +13,8 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 
-from .dynamics import altitude_speed_fpa, flight_model, flight_quantities, propulsion
-from .problem import LIMIT_UNITS, Problem, phase_plan
+from ascentplan.models.dynamics import altitude_speed_fpa, flight_model, flight_quantities, propulsion
+from ascentplan.problem.model import LIMIT_UNITS, Problem, phase_plan
 
 __all__ = ["DPI", "PANELS", "plot_result", "plot_trajectory", "result_nodes"]
 

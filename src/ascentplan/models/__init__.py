@@ -1,0 +1,1 @@
+"""Physics models: atmosphere, drag coefficient, gravity and the equations of motion."""

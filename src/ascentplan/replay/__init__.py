@@ -1,0 +1,1 @@
+"""Forward integration of a schedule and its verification against the optimiser."""

@@ -1,0 +1,1 @@
+"""Stage-mass splits: the rocket-equation optimum and the split chosen with the trajectory."""

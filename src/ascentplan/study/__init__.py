@@ -1,0 +1,1 @@
+"""Trade studies: limit sweeps and dispersions on local processes or Dask, resumable."""

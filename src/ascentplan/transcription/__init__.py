@@ -1,0 +1,1 @@
+"""Direct collocation: schemes, first guesses and scales, the NLP solved by IPOPT."""
