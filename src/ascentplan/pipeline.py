@@ -12,7 +12,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from ascentplan.cautions import CAUTION
-from ascentplan.models.dynamics import altitude_speed_fpa
+from ascentplan.models.dynamics import altitude_speed_fpa, dynamics_kind
 from ascentplan.transcription.guess import guess_from_solution, guess_from_trajectory, scales_for
 from ascentplan.transcription.nlp import AscentNLP, NLPSolution, structure_key
 from ascentplan.problem.model import LIMIT_UNITS, Problem, phase_plan
@@ -187,7 +187,7 @@ def _guess_schedule(problem: Problem):
     from ascentplan.models.atmosphere import Vacuum
     from ascentplan.problem.model import TimeSchedule
 
-    if problem.dynamics != "planar":
+    if not dynamics_kind(problem.dynamics).steered:
         return None
     if not isinstance(problem.atmosphere, Vacuum) and problem.launch.pitch_over > 0:
         return None

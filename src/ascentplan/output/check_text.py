@@ -8,6 +8,7 @@ import math
 from ascentplan.models import aero
 from ascentplan.models import atmosphere
 from ascentplan.models import gravity
+from ascentplan.models.dynamics import dynamics_kind
 from ascentplan.cautions import CAUTION
 from ascentplan.constants import G0
 from ascentplan.problem.loader import liftoff_thrust, site_gravity
@@ -105,7 +106,7 @@ def vehicle_summary(problem: Problem) -> str:
     la = problem.launch
     launch = (f"Launch: altitude {la.altitude:.1f} m, latitude {math.degrees(la.latitude):.3f} "
               f"deg, vertical rise {la.vertical_rise:.1f} s")
-    if problem.dynamics == "planar":
+    if dynamics_kind(problem.dynamics).steered:
         launch += f", pitch-over {math.degrees(la.pitch_over):.2f} deg"
     lines.append(launch)
 

@@ -28,25 +28,24 @@ class ScheduleFileError(ValueError):
 def _trajectory_columns(traj: Trajectory):
     """(header, values) pairs of the trajectory CSV, SI units in the names."""
     q = traj.quantities
-    deg = 180.0 / math.pi
+    kind = traj.kind
+
+    def values(spec):
+        header, source, name, factor = spec
+        if source == "state":
+            v = traj.state[kind.index(name)]
+        elif source == "control":
+            v = traj.controls[kind.control_index(name)]
+        else:
+            v = q[name]
+        return header, v * factor if factor != 1.0 else v
+
     cols = [("time_s", traj.time), ("phase", traj.phase.astype(float))]
-    if traj.dynamics == "vertical":
-        cols += [("altitude_m", traj.state[0]), ("vertical_speed_m_s", traj.state[1]),
-                 ("mass_kg", traj.state[2]), ("throttle", traj.controls[0])]
-    else:
-        cols += [("altitude_m", q["altitude"]), ("speed_m_s", q["speed"]),
-                 ("flight_path_angle_deg", q["flight_path_angle"] * deg),
-                 ("mass_kg", traj.state[4]), ("throttle", traj.controls[0]),
-                 ("pitch_deg", traj.controls[1] * deg),
-                 ("radius_m", traj.state[0]), ("range_angle_deg", traj.state[1] * deg),
-                 ("radial_speed_m_s", traj.state[2]),
-                 ("horizontal_speed_m_s", traj.state[3])]
+    cols += [values(spec) for spec in kind.trajectory_columns]
     cols += [("relative_speed_m_s", q["relative_speed"]),
              ("dynamic_pressure_Pa", q["dynamic_pressure"]), ("mach", q["mach"]),
              ("axial_acceleration_g0", q["axial_acceleration"])]
-    if traj.dynamics == "planar":
-        cols += [("angle_of_attack_deg", q["angle_of_attack"] * deg),
-                 ("q_alpha_Pa_rad", q["q_alpha"])]
+    cols += [values(spec) for spec in kind.extra_trajectory_columns]
     cols += [("thrust_N", q["thrust"]), ("drag_N", q["drag"]),
              ("mass_flow_kg_s", q["mass_flow"]), ("density_kg_m3", q["density"]),
              ("pressure_Pa", q["pressure"])]

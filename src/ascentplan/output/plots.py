@@ -13,7 +13,7 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 
-from ascentplan.models.dynamics import altitude_speed_fpa, flight_model, flight_quantities, propulsion
+from ascentplan.models.dynamics import dynamics_kind, flight_model, flight_quantities, propulsion
 from ascentplan.problem.model import LIMIT_UNITS, Problem, phase_plan
 
 __all__ = ["DPI", "PANELS", "plot_result", "plot_trajectory", "result_nodes"]
@@ -48,12 +48,13 @@ def _always(problem: Problem) -> bool:
     return True
 
 
-def _planar(problem: Problem) -> bool:
-    return problem.dynamics == "planar"
+def _steered(problem: Problem) -> bool:
+    return dynamics_kind(problem.dynamics).steered
 
 
-def _planar_with_q_alpha_limit(problem: Problem) -> bool:
-    return problem.dynamics == "planar" and problem.limits.max_q_alpha is not None
+def _with_q_alpha_limit(problem: Problem) -> bool:
+    return (dynamics_kind(problem.dynamics).provides("q_alpha")
+            and problem.limits.max_q_alpha is not None)
 
 
 #: the panels in plotting order; ``key`` is also the PNG file stem
@@ -64,9 +65,9 @@ PANELS = (
     _Panel("axial_acceleration", "Sensed axial acceleration", "axial acceleration [g0]",
            _always),
     _Panel("q_alpha", "Dynamic pressure times angle of attack", "|q alpha| [kPa deg]",
-           _planar_with_q_alpha_limit),
+           _with_q_alpha_limit),
     _Panel("throttle", "Throttle", "throttle [fraction of full flow]", _always),
-    _Panel("pitch", "Thrust pitch from local horizontal", "pitch [deg]", _planar),
+    _Panel("pitch", "Thrust pitch from local horizontal", "pitch [deg]", _steered),
     _Panel("mass", "Vehicle mass", "mass [t]", _always),
 )
 
@@ -82,9 +83,10 @@ def _replay_lines(problem: Problem, trajectory, key: str) -> list[tuple[np.ndarr
     if key == "altitude":
         return [(_quantity(trajectory, "altitude") / 1000.0, _REPLAY_STYLE, "replay")]
     if key == "speed":
+        steered = dynamics_kind(problem.dynamics).steered
         lines = [(_quantity(trajectory, "speed"), _REPLAY_STYLE,
-                  "inertial" if problem.dynamics == "planar" else "replay")]
-        if problem.dynamics == "planar" and "relative_speed" in trajectory.quantities:
+                  "inertial" if steered else "replay")]
+        if steered and "relative_speed" in trajectory.quantities:
             lines.append((_quantity(trajectory, "relative_speed"), _AIR_RELATIVE_STYLE,
                           "air-relative"))
         return lines
@@ -137,21 +139,21 @@ def _node_quantities(problem: Problem, nodes) -> list[dict]:
         times = np.asarray(entry[0], dtype=float).ravel()
         controls = np.atleast_2d(np.asarray(entry[1], dtype=float))
         values = {"time": times, "throttle": controls[0]}
-        if problem.dynamics == "planar" and controls.shape[0] > 1:
-            values["pitch"] = np.degrees(controls[1])
+        if model.kind.steered and controls.shape[0] > 1:
+            values["pitch"] = np.degrees(controls[model.kind.control_index("pitch")])
         if len(entry) > 2 and entry[2] is not None and j < len(phases):
             states = np.atleast_2d(np.asarray(entry[2], dtype=float))
             ph = phases[j]
             prop = propulsion(problem.vehicle.stages[ph.stage], ph.powered)
             f = flight_quantities(states, controls, model, prop)
-            _h, speed, _fpa = altitude_speed_fpa(states, problem.dynamics, problem.planet)
+            speed = model.kind.speed(states)
             values["altitude"] = np.asarray(f["altitude"]) / 1000.0
             values["speed"] = np.asarray(speed)
             values["dynamic_pressure"] = np.asarray(f["dynamic_pressure"]) / 1000.0
             values["axial_acceleration"] = np.asarray(f["axial_acceleration"])
             if "q_alpha" in f:
                 values["q_alpha"] = np.abs(np.asarray(f["q_alpha"])) / _Q_ALPHA_FACTOR
-            values["mass"] = states[-1] / 1000.0
+            values["mass"] = model.kind.mass(states) / 1000.0
         out.append(values)
     return out
 
@@ -260,7 +262,7 @@ def _overview_figure(problem: Problem, trajectory, nodes=None) -> Figure:
     for i, (ax, panel) in enumerate(zip(axes, panels)):
         # event names on the first panel only: nine copies would hide the curves
         _draw_panel(ax, problem, trajectory, panel, node_values, events,
-                    label_events=i == 0, legend=panel.key == "speed" and _planar(problem))
+                    label_events=i == 0, legend=panel.key == "speed" and _steered(problem))
     for ax in axes[len(panels):]:
         ax.remove()
     handles = [Line2D([], [], **_REPLAY_STYLE, label="replay (forward integration)")]

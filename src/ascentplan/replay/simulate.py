@@ -128,24 +128,14 @@ def _loss_rates(x, u, model, prop):
     """Rates of the budget terms [m s^-2], in the order of :data:`LOSS_NAMES`."""
     f = dynamics.flight_quantities(x, u, model, prop)
     throttle = u[0]
-    if model.kind == "vertical":
-        v, mass = x[1], x[2]
-        speed = m_.smooth_norm(v, eps=_SPEED_EPS)
-        cos_thrust = v / speed  # thrust points up
-        along_drag = f["drag_vertical"] * v / speed
-        sin_gamma = v / speed
-    else:
-        vr, vt, mass = x[2], x[3], x[4]
-        pitch = u[1]
-        speed = m_.smooth_norm(vr, vt, eps=_SPEED_EPS)
-        cos_thrust = (vr * m_.sin(pitch) + vt * m_.cos(pitch)) / speed
-        along_drag = (f["drag_radial"] * vr + f["drag_horizontal"] * vt) / speed
-        sin_gamma = vr / speed
+    mass = model.kind.mass(x)
+    speed = m_.smooth_norm(f["radial_speed"], f["horizontal_speed"], eps=_SPEED_EPS)
+    sin_gamma = f["radial_speed"] / speed
     return [
         throttle * prop.thrust_vacuum / mass,
         f["gravity"] * sin_gamma,
-        along_drag / mass,
-        f["thrust"] / mass * (1.0 - cos_thrust),
+        f["drag_along_velocity"] / mass,
+        f["thrust"] / mass - f["thrust_along_velocity"] / mass,
         # nozzle back-pressure: what the ambient pressure takes from the vacuum thrust
         (throttle * prop.thrust_vacuum - f["thrust"]) / mass,
     ]
@@ -254,13 +244,13 @@ class _Interp:
 class _AirPath:
     """Pitch along the air-relative velocity: zero angle of attack."""
 
-    __slots__ = ("omega",)
+    __slots__ = ("model",)
 
-    def __init__(self, omega):
-        self.omega = float(omega)
+    def __init__(self, model):
+        self.model = model
 
     def __call__(self, t, x):
-        return np.arctan2(x[2], x[3] - self.omega * x[0])
+        return self.model.kind.air_pitch(x, self.model)
 
 
 class _Law:
@@ -273,8 +263,10 @@ class _Law:
     def __init__(self, problem, plan, schedule):
         self.problem = problem
         self.plan = plan
-        self.planar = problem.dynamics == "planar"
-        self.omega = dynamics.flight_model(problem).rotation_rate
+        self.model = dynamics.flight_model(problem)
+        # steered kinds fly a pitch schedule or the default gravity turn
+        self.planar = self.model.kind.has_control("pitch")
+        self.omega = self.model.rotation_rate
         self.schedule = schedule
         if isinstance(schedule, PhaseSchedule):
             self.throttle_source = self.pitch_source = "phases"
@@ -332,11 +324,12 @@ class _Law:
         target = 0.5 * np.pi - self.problem.launch.pitch_over
         if self.problem.launch.pitch_over == 0.0:
             return None
-        c, s, omega = math.cos(target), math.sin(target), self.omega
+        c, s, model = math.cos(target), math.sin(target), self.model
 
         def kick_done(t, y):
             # sin(gamma_air - target)|w|: the air-relative flight path reached the kick
-            return y[2] * c - (y[3] - omega * y[0]) * s
+            w_radial, w_horizontal = model.kind.air_relative_velocity(y, model)
+            return w_radial * c - w_horizontal * s
 
         kick_done.terminal = True
         kick_done.direction = -1
@@ -358,7 +351,7 @@ class _Law:
         if mode == "rise":
             pitch = _Constant(0.5 * np.pi)
         elif mode in ("coast", "turn"):
-            pitch = _AirPath(self.omega)
+            pitch = _AirPath(self.model)
         elif mode == "kick":
             pitch = _Constant(0.5 * np.pi - self.problem.launch.pitch_over)
         elif pc is not None:
@@ -395,8 +388,10 @@ def _check_schedule(problem, plan, schedule):
         if pc.stage is not None and pc.stage != phase.stage:
             raise ValueError(f"schedule phase {k}: stage {pc.stage}, the plan has "
                              f"{phase.stage}")
-        if problem.dynamics == "planar" and phase.kind == "burn" and pc.pitch is None:
-            raise ValueError(f"schedule phase {k}: a planar burn needs a pitch at each node")
+        if (dynamics.dynamics_kind(problem.dynamics).has_control("pitch")
+                and phase.kind == "burn" and pc.pitch is None):
+            raise ValueError(f"schedule phase {k}: a {problem.dynamics} burn needs a pitch at "
+                             f"each node")
 
 
 # --------------------------------------------------------------------------------------
@@ -410,13 +405,14 @@ class Trajectory:
     Attributes
     ----------
     dynamics : str
-        ``"vertical"`` or ``"planar"``.
+        Name of the dynamics kind (a key of :data:`ascentplan.models.dynamics.DYNAMICS`);
+        :attr:`kind` is the kind itself.
     time : numpy.ndarray, shape (N,)
         Sample times from liftoff [s]; within a phase strictly increasing, and the time
         of a phase boundary appears once in each of the two phases (so the mass drop at
         staging shows as two samples at one time).
     state : numpy.ndarray, shape (n, N)
-        Flight states, see :data:`ascentplan.dynamics.STATE_NAMES`.
+        Flight states, see ``state_names``.
     controls : numpy.ndarray, shape (n_u, N)
         Throttle and, planar, pitch [rad] as flown.
     phase : numpy.ndarray of int, shape (N,)
@@ -468,6 +464,11 @@ class Trajectory:
     _props: list = field(default_factory=list, repr=False)
     _rules: list = field(default_factory=list, repr=False)
     _fixed: list = field(default_factory=list, repr=False)
+
+    @property
+    def kind(self) -> dynamics.DynamicsKind:
+        """The :class:`~ascentplan.models.dynamics.DynamicsKind` flown."""
+        return dynamics.dynamics_kind(self.dynamics)
 
     @property
     def ok(self) -> bool:
@@ -526,9 +527,6 @@ class Trajectory:
         u = np.asarray(self._rule_at(k, t)(t, x), dtype=float)
         q = {name: float(v) for name, v in
              dynamics.flight_quantities(x, u, self._model, self._props[k]).items()}
-        if self.dynamics == "vertical":
-            q["flight_path_angle"] = float(
-                dynamics.altitude_speed_fpa(x, "vertical", self._model.planet)[2])
         for i, name in enumerate(LOSS_NAMES):
             q[LOSS_QUANTITIES[name]] = float(y[n + i])
         return q
@@ -603,10 +601,10 @@ def _default_atol(problem, rtol):
     liftoff mass.
     """
     m0 = problem.vehicle.liftoff_mass
-    if problem.dynamics == "vertical":
-        scales = [1e4, 10.0, 10.0 * m0]
-    else:
-        scales = [1e4, 1e4 / problem.planet.radius, 10.0, 10.0, 10.0 * m0]
+    kind = dynamics.dynamics_kind(problem.dynamics)
+    per_name = {"mass": 10.0 * m0, "range_angle": 1e4 / problem.planet.radius,
+                "altitude": 1e4, "radius": 1e4}
+    scales = [per_name.get(name, 10.0) for name in kind.state_names]
     return rtol * np.array(scales + [10.0] * len(LOSS_NAMES))
 
 
@@ -624,14 +622,6 @@ def _atol_vector(problem, rtol, atol, n):
     raise ValueError(f"atol: expected a number or {n} values (one per state), got {a.shape}")
 
 
-def _altitude(kind, planet, y):
-    return y[0] if kind == "vertical" else y[0] - planet.radius
-
-
-def _radial_speed_index(kind):
-    return 1 if kind == "vertical" else 2
-
-
 def _event_record(kind, t, k, stage, x, problem, **extra):
     h, speed, fpa = dynamics.altitude_speed_fpa(x, problem.dynamics, problem.planet)
     rec = dict(kind=kind, time=float(t), phase=int(k), stage=int(stage), altitude=float(h),
@@ -643,11 +633,8 @@ def _event_record(kind, t, k, stage, x, problem, **extra):
 def _coast_cap(problem, x):
     """Cap on a coast to apogee [s]: two orbital periods of the osculating orbit, bounded."""
     mu = problem.planet.gravitational_parameter
-    if problem.dynamics == "vertical":
-        r, v2 = problem.planet.radius + x[0], x[1] ** 2
-    else:
-        r, v2 = x[0], x[2] ** 2 + x[3] ** 2
-    inverse_a = 2.0 / r - v2 / mu
+    energy = dynamics.dynamics_kind(problem.dynamics).specific_energy(x, problem.planet)
+    inverse_a = -2.0 * energy / mu
     if inverse_a > 0:
         period = 2.0 * np.pi * math.sqrt(inverse_a ** -3 / mu)
         return float(min(max(FLIGHT_CAP, 2.0 * period), _LONGEST_COAST))
@@ -675,7 +662,7 @@ class _PhaseRun:
 
 
 def _fly_phase(problem, law, rates, k, phase, t0, y0, rtol, atol, max_step, exhausted):
-    kind = problem.dynamics
+    kind = dynamics.dynamics_kind(problem.dynamics)
     n = rates.n
     stage = problem.vehicle.stages[phase.stage]
     prop = dynamics.propulsion(stage, phase.powered)
@@ -684,7 +671,7 @@ def _fly_phase(problem, law, rates, k, phase, t0, y0, rtol, atol, max_step, exha
     run.rules.append((t0, law.rule(k, phase, t0, law.modes(k, phase, t0)[0][0])))
     if phase.powered and phase.stage in exhausted or (t_sched is not None and t_sched <= t0):
         return run, prop, t_sched
-    if phase.ends_at_apogee and y0[_radial_speed_index(problem.dynamics)] <= 0.0:
+    if phase.ends_at_apogee and kind.radial_speed(y0) <= 0.0:
         # already at or past the apogee: the coast has zero length
         run.ended_by = "apogee"
         return run, prop, t_sched
@@ -700,10 +687,8 @@ def _fly_phase(problem, law, rates, k, phase, t0, y0, rtol, atol, max_step, exha
 
     planet = problem.planet
     h_impact = problem.launch.altitude - IMPACT_MARGIN
-    ir = _radial_speed_index(kind)
-
     def impact(t, y):
-        return _altitude(kind, planet, y) - h_impact
+        return kind.altitude(y, planet) - h_impact
 
     impact.terminal, impact.direction = True, -1
     base = [("impact", impact)]
@@ -711,13 +696,13 @@ def _fly_phase(problem, law, rates, k, phase, t0, y0, rtol, atol, max_step, exha
         m_burnout = problem.vehicle.burnout_mass(phase.stage)
 
         def depletion(t, y):
-            return y[n - 1] - m_burnout
+            return kind.mass(y) - m_burnout
 
         depletion.terminal, depletion.direction = True, -1
         base.append(("depletion", depletion))
     if not phase.powered:
         def apogee(t, y):
-            return y[ir]
+            return kind.radial_speed(y)
 
         # a coast that does not end at apogee may still pass one: record it
         apogee.terminal, apogee.direction = phase.ends_at_apogee, -1
@@ -903,6 +888,7 @@ def simulate(problem, schedule=None, *, coast_to_apogee: bool = True, rtol: floa
     _check_schedule(problem, plan, schedule)
     law = _Law(problem, plan, schedule)
     model = dynamics.flight_model(problem)
+    kind = model.kind
     rates = _Rates(model)
     n = model.n_states
     atol_vec = _atol_vector(problem, rtol, atol, n)
@@ -921,8 +907,7 @@ def simulate(problem, schedule=None, *, coast_to_apogee: bool = True, rtol: floa
     while True:
         if k < len(plan):
             phase = plan[k]
-        elif k == len(plan) and wants_final_coast and y[_radial_speed_index(
-                problem.dynamics)] > 0.0:
+        elif k == len(plan) and wants_final_coast and kind.radial_speed(y) > 0.0:
             phase = Phase("coast", last_stage, ends_at_apogee=True)
         else:
             break
@@ -1005,9 +990,6 @@ def _assemble(problem, model, runs, props, phases, events, status, message):
         q = dynamics.flight_quantities(xk, uk, model, prop)
         q = {name: np.broadcast_to(np.asarray(v, dtype=float), tk.shape).copy()
              for name, v in q.items()}
-        if model.kind == "vertical":
-            q["flight_path_angle"] = np.asarray(
-                dynamics.altitude_speed_fpa(xk, "vertical", model.planet)[2], dtype=float)
         for i, name in enumerate(LOSS_NAMES):
             q[LOSS_QUANTITIES[name]] = yk[n + i].copy()
         times.append(tk)
@@ -1017,7 +999,7 @@ def _assemble(problem, model, runs, props, phases, events, status, message):
         quantities.append(q)
     keys = [key for key in quantities[0] if all(key in q for q in quantities)]
     traj = Trajectory(
-        dynamics=model.kind,
+        dynamics=model.kind.name,
         time=np.concatenate(times),
         state=np.concatenate(states, axis=1),
         controls=np.concatenate(controls, axis=1),
@@ -1031,8 +1013,8 @@ def _assemble(problem, model, runs, props, phases, events, status, message):
         status=status,
         message=message or ("flight completed" if status == "ok" else ""),
         solutions=solutions,
-        state_names=dynamics.STATE_NAMES[model.kind],
-        control_names=dynamics.CONTROL_NAMES[model.kind],
+        state_names=model.kind.state_names,
+        control_names=model.kind.control_names,
         _model=model,
         _props=props,
         _rules=[run.rules for run in runs],
@@ -1043,9 +1025,7 @@ def _assemble(problem, model, runs, props, phases, events, status, message):
 
 
 def _inertial_speed(kind, x):
-    if kind == "vertical":
-        return abs(float(x[1]))
-    return math.hypot(float(x[2]), float(x[3]))
+    return abs(float(dynamics.dynamics_kind(kind).speed(x)))
 
 
 def _budget(traj):

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ascentplan.models.dynamics import dynamics_kind
 from ascentplan.transcription.nlp import Guess, nodes_for_phase
 from ascentplan.problem.model import Problem, phase_plan
 
@@ -24,7 +25,9 @@ def guess_from_trajectory(problem: Problem, trajectory, nodes_per_phase: int) ->
     stages = problem.vehicle.stages
     durations, states, controls = [], [], []
     last_state = np.asarray(trajectory.state)[:, -1]
-    n_u = 1 if problem.dynamics == "vertical" else 2
+    kind = dynamics_kind(problem.dynamics)
+    n_u = kind.n_controls
+    steered = kind.has_control("pitch")
     for j, ph in enumerate(phases):
         N = nodes_for_phase(ph, nodes_per_phase)
         t, x, u = _phase_samples(trajectory, j)
@@ -43,10 +46,11 @@ def guess_from_trajectory(problem: Problem, trajectory, nodes_per_phase: int) ->
             d = ph.duration
         if not ph.powered:
             Uc[:] = 0.0
-        elif n_u == 2:
+        elif steered:
+            pitch = kind.control_index("pitch")
             if ph.kind == "rise":
-                Uc[1] = 0.5 * np.pi
-            Uc[1] = np.clip(Uc[1], -0.5 * np.pi, 0.5 * np.pi)
+                Uc[pitch] = 0.5 * np.pi
+            Uc[pitch] = np.clip(Uc[pitch], -0.5 * np.pi, 0.5 * np.pi)
         Uc[0] = np.clip(Uc[0], stages[ph.stage].throttle_min if ph.powered else 0.0,
                         stages[ph.stage].throttle_max if ph.powered else 0.0)
         durations.append(d)
@@ -79,28 +83,8 @@ def guess_from_solution(problem: Problem, solution, nodes_per_phase: int) -> Gue
 
 def scales_for(problem: Problem, guess: Guess) -> dict:
     """Offsets and scales that bring every NLP variable to order one."""
-    planet = problem.planet
-    target = problem.target
     allx = np.hstack(guess.states)
-    if problem.dynamics == "vertical":
-        h = np.abs(allx[0])
-        h_ref = max(1e3, float(h.max()), target.altitude or 0.0)
-        v_ref = max(50.0, float(np.abs(allx[1]).max()), target.speed or 0.0)
-        offset = [0.0, 0.0, 0.0]
-        scale = [h_ref, v_ref, problem.vehicle.liftoff_mass]
-    else:
-        h = allx[0] - planet.radius
-        alt_target = target.circular_orbit_altitude or target.altitude or 0.0
-        h_ref = max(1e3, float(np.abs(h).max()), alt_target)
-        speed = np.hypot(allx[2], allx[3])
-        v_orbit = 0.0
-        if target.circular_orbit_altitude is not None:
-            v_orbit = np.sqrt(planet.gravitational_parameter /
-                              (planet.radius + target.circular_orbit_altitude))
-        v_ref = max(100.0, float(speed.max()), target.speed or 0.0, v_orbit)
-        theta_ref = max(1e-3, float(np.abs(allx[1]).max()))
-        offset = [planet.radius, 0.0, 0.0, 0.0, 0.0]
-        scale = [h_ref, theta_ref, v_ref, v_ref, problem.vehicle.liftoff_mass]
+    offset, scale = dynamics_kind(problem.dynamics).state_scales(allx, problem)
     durations = [max(1e-3, float(d)) for d in guess.durations]
     return {"x_offset": offset, "x_scale": scale, "durations": durations,
             "mass": problem.vehicle.liftoff_mass}
