@@ -20,14 +20,7 @@ from ascentplan.replay.simulate import PhaseControls, PhaseSchedule, simulate
 from ascentplan.replay.verify import Verification, verify
 
 #: objective units shown to the user: name -> (unit, SI-to-unit divisor)
-OBJECTIVE_UNITS = {
-    "max_burnout_speed": ("m/s", 1.0),
-    "max_burnout_altitude": ("km", 1000.0),
-    "max_apogee": ("km", 1000.0),
-    "max_payload": ("kg", 1.0),
-    "min_propellant": ("kg", 1.0),
-    "min_liftoff_mass": ("kg", 1.0),
-}
+from ascentplan.problem.objectives import OBJECTIVE_UNITS  # noqa: E402  (re-exported)
 
 _NLP_CACHE: dict = {}
 _CACHE_SIZE = 8

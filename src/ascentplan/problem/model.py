@@ -12,6 +12,43 @@ from dataclasses import dataclass, field, replace
 from typing import Any
 
 from ascentplan.constants import G0
+from ascentplan.problem.limits import LIMIT_UNITS, LIMITS
+from ascentplan.problem.objectives import OBJECTIVE_SPECS, OBJECTIVES
+
+__all__ = ["LIMIT_UNITS", "LIMITS", "OBJECTIVES", "OBJECTIVE_SPECS", "SCHEMES", "Aerodynamics",
+           "Launch", "Limits", "MassSplit", "Mesh", "Phase", "Planet", "Problem", "Stage",
+           "Target", "TimeSchedule", "Vehicle", "dry_mass_from_ratio", "phase_plan", "stack_masses",
+           "thrust_from_ratio"]
+
+
+# --------------------------------------------------------------------------------------
+# mass rules, written once; plain arithmetic, so they take floats, numpy arrays and CasADi
+# symbols alike (the NLP calls them on its decision variables)
+
+
+def dry_mass_from_ratio(propellant_mass, structural_ratio):
+    """Dry mass [kg] of a stage with structural ratio eps = dry/(dry + propellant)."""
+    return structural_ratio / (1.0 - structural_ratio) * propellant_mass
+
+
+def thrust_from_ratio(thrust_to_weight, ignition_mass):
+    """Vacuum thrust [N] giving ``thrust_to_weight`` = F / (g0 m) at ``ignition_mass`` [kg]."""
+    return thrust_to_weight * G0 * ignition_mass
+
+
+def stack_masses(payload_mass, propellant_masses, dry_masses) -> tuple[list, list, list]:
+    """Masses of a serial stack, first stage first [kg].
+
+    Returns ``(above, ignition, burnout)``: for each stage the mass it carries (payload
+    and all later stages), the stack mass at its ignition and at its burnout.
+    """
+    n = len(propellant_masses)
+    above = [payload_mass] * n
+    for i in range(n - 2, -1, -1):
+        above[i] = above[i + 1] + propellant_masses[i + 1] + dry_masses[i + 1]
+    ignition = [above[i] + propellant_masses[i] + dry_masses[i] for i in range(n)]
+    burnout = [above[i] + dry_masses[i] for i in range(n)]
+    return above, ignition, burnout
 
 
 @dataclass(frozen=True)
@@ -84,6 +121,13 @@ class Stage:
         """Burn time at full throttle [s]."""
         return self.propellant_mass / self.max_mass_flow
 
+    @property
+    def ratio_of_structure(self) -> float:
+        """Structural ratio dry/(dry + propellant): as given, else as the masses are written."""
+        if self.structural_ratio is not None:
+            return float(self.structural_ratio)
+        return self.dry_mass / (self.dry_mass + self.propellant_mass)
+
 
 @dataclass(frozen=True)
 class Vehicle:
@@ -97,34 +141,36 @@ class Vehicle:
         """Total mass at liftoff [kg]."""
         return self.payload_mass + sum(s.mass for s in self.stages)
 
+    def _stack(self) -> tuple[list, list, list]:
+        return stack_masses(self.payload_mass, [s.propellant_mass for s in self.stages],
+                            [s.dry_mass for s in self.stages])
+
     def mass_above(self, index: int) -> float:
         """Mass carried by stage ``index``: payload plus all stages after it [kg]."""
-        return self.payload_mass + sum(s.mass for s in self.stages[index + 1:])
+        return self._stack()[0][index]
 
     def ignition_mass(self, index: int) -> float:
         """Stack mass when stage ``index`` ignites [kg]."""
-        return self.mass_above(index) + self.stages[index].mass
+        return self._stack()[1][index]
 
     def burnout_mass(self, index: int) -> float:
         """Stack mass when stage ``index`` has burnt all its propellant [kg]."""
-        return self.mass_above(index) + self.stages[index].dry_mass
+        return self._stack()[2][index]
 
     def with_propellant(self, propellant: list[float], payload_mass: float | None = None):
         """A copy with new propellant masses; dry masses follow the structural ratios
         (as given, else as the masses are written), thrusts a given thrust-to-weight."""
         stages = []
         for s, mp in zip(self.stages, propellant):
-            eps = s.structural_ratio
-            if eps is None:
-                eps = s.dry_mass / (s.dry_mass + s.propellant_mass)
-            dry = eps / (1.0 - eps) * mp
+            dry = dry_mass_from_ratio(mp, s.ratio_of_structure)
             stages.append(replace(s, propellant_mass=float(mp), dry_mass=float(dry)))
         payload = self.payload_mass if payload_mass is None else float(payload_mass)
         vehicle = Vehicle(payload_mass=payload, stages=tuple(stages))
         scaled = []
         for i, s in enumerate(vehicle.stages):
             if s.thrust_to_weight is not None:
-                s = replace(s, thrust_vacuum=s.thrust_to_weight * G0 * vehicle.ignition_mass(i))
+                s = replace(s, thrust_vacuum=thrust_from_ratio(s.thrust_to_weight,
+                                                               vehicle.ignition_mass(i)))
             scaled.append(s)
         return Vehicle(payload_mass=payload, stages=tuple(scaled))
 
@@ -179,16 +225,7 @@ class Limits:
     min_altitude: float | None = None  # [m]
 
     def active_names(self) -> list[str]:
-        return [k for k in LIMIT_UNITS if getattr(self, k) is not None]
-
-
-#: user-facing unit of each limit and the SI factor: value_user = value_SI / factor
-LIMIT_UNITS = {
-    "max_dynamic_pressure": ("kPa", 1000.0),
-    "max_axial_acceleration": ("g0", 1.0),
-    "max_q_alpha": ("kPa deg", 1000.0 * 3.141592653589793 / 180.0),
-    "min_altitude": ("km", 1000.0),
-}
+        return [k for k in LIMITS if getattr(self, k) is not None]
 
 
 @dataclass(frozen=True)
@@ -302,20 +339,11 @@ def phase_plan(problem: Problem) -> list[Phase]:
         phases.append(Phase("burn", i))
         if stage.coast_after > 0 and i < len(stages) - 1:
             phases.append(Phase("coast", i, duration=stage.coast_after))
-    if problem.objective == "max_apogee":
+    spec = OBJECTIVE_SPECS.get(problem.objective)
+    if spec is not None and spec.final_coast:
         phases.append(Phase("coast", len(stages) - 1, ends_at_apogee=True))
     return phases
 
-
-#: objectives by the name used in problem files (the optimiser implements each)
-OBJECTIVES = {
-    "max_burnout_speed": "maximise inertial speed at burnout of the last stage",
-    "max_burnout_altitude": "maximise altitude at burnout of the last stage",
-    "max_apogee": "maximise the apogee altitude reached by coasting after burnout",
-    "max_payload": "maximise payload mass delivered to the target",
-    "min_propellant": "minimise propellant used to reach the target",
-    "min_liftoff_mass": "minimise liftoff mass that reaches the target (stage-mass split, payload held)",
-}
 
 #: collocation schemes by the name used in problem files
 SCHEMES = {
