@@ -1,7 +1,7 @@
 """The problem description: vehicle, planet, models, launch, limits, target, objective, mesh.
 
 All quantities are SI (kg, m, s, N, Pa, rad); accelerations given in g0 are plain
-multiples of :data:`ascentplan.constants.G0`. The loader (:mod:`ascentplan.loader`)
+multiples of :data:`ascentplan.constants.G0`. The loader (:mod:`ascentplan.problem.loader`)
 builds these objects from a problem file and validates them; code that builds them
 directly is trusted to pass sensible values.
 """
