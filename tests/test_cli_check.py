@@ -4,8 +4,6 @@ from __future__ import annotations
 
 import math
 import re
-import sys
-import types
 from pathlib import Path
 
 import pytest
@@ -132,9 +130,7 @@ def _fake_simulator(monkeypatch, status=0):
         calls.append((problem, out, schedule))
         return status
 
-    module = types.ModuleType("ascentplan.replay.simulate")
-    module.simulate_command = simulate_command
-    monkeypatch.setitem(sys.modules, "ascentplan.replay.simulate", module)
+    monkeypatch.setattr(cli, "run_simulate", simulate_command)
     return calls
 
 

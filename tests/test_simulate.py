@@ -11,16 +11,31 @@ import numpy as np
 import pytest
 from scipy.optimize import brentq, minimize_scalar
 
+from ascentplan.cautions import CAUTION
+from ascentplan.cli import run_simulate
+from ascentplan.constants import G0, PLANETS
 from ascentplan.models.aero import ConstantDrag
 from ascentplan.models.atmosphere import ExponentialAtmosphere, Vacuum
-from ascentplan.cautions import CAUTION
-from ascentplan.constants import G0, PLANETS
 from ascentplan.models.gravity import ConstantGravity, InverseSquareGravity
-from ascentplan.output.files import (ScheduleFileError, read_schedule_csv, simulation_summary,
-                                write_schedule_csv, write_trajectory_csv)
-from ascentplan.problem.model import (Aerodynamics, Launch, Planet, Problem, Stage, TimeSchedule,
-                                Vehicle, phase_plan)
-from ascentplan.replay.simulate import PhaseControls, PhaseSchedule, simulate, simulate_command
+from ascentplan.output.files import (
+    ScheduleFileError,
+    read_schedule_csv,
+    simulation_summary,
+    write_schedule_csv,
+    write_trajectory_csv,
+)
+from ascentplan.problem.model import (
+    Aerodynamics,
+    Launch,
+    Planet,
+    Problem,
+    Stage,
+    TimeSchedule,
+    Vehicle,
+    phase_plan,
+)
+from ascentplan.replay.simulate import PhaseControls, PhaseSchedule, simulate
+
 
 @dataclass(frozen=True)
 class _NoGravity:
@@ -363,8 +378,8 @@ def test_schedule_csv_round_trip_and_errors(tmp_path):
         read_schedule_csv(missing)
 
     out = tmp_path / "out"
-    assert simulate_command(problem, out=out, schedule=bad) == 2
-    assert simulate_command(problem, out=out, schedule=path) == 0
+    assert run_simulate(problem, out=out, schedule=bad) == 2
+    assert run_simulate(problem, out=out, schedule=path) == 0
     summary = json.loads((out / "summary.json").read_text())
     assert summary["status"] == "ok" and summary["caution"] == CAUTION
     header = (out / "trajectory.csv").read_text().splitlines()[0].split(",")

@@ -38,14 +38,54 @@ def _cmd_check(args) -> int:
     return status
 
 
+def run_simulate(problem, out=None, schedule=None) -> int:
+    """Fly a problem, write ``trajectory.csv`` and ``summary.json``, print a summary.
+
+    Parameters
+    ----------
+    problem : ascentplan.problem.Problem
+    out : str or path-like or None
+        Results folder; default ``results/<problem name>/``.
+    schedule : str or path-like or None
+        A schedule CSV (see :func:`ascentplan.output.files.read_schedule_csv`); without
+        it ``problem.schedule`` or the default schedule is flown.
+
+    Returns
+    -------
+    int
+        0 when the flight ends normally, 1 on impact or failure, 2 on a bad schedule
+        file.
+    """
+    # imported here so that ``check`` stays quick
+    from ascentplan.cautions import CAUTION
+    from ascentplan.output import files
+    from ascentplan.replay.simulate import simulate
+
+    flown = problem.schedule
+    try:
+        if schedule is not None:
+            flown = files.read_schedule_csv(schedule)
+        # a schedule that does not fit the phase plan is refused before any flight
+        traj = simulate(problem, flown)
+    except (OSError, ValueError) as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    folder = Path("results") / problem.name if out is None else out
+    summary, csv_path, json_path = files.write_simulation(problem, traj, folder)
+    print(files.format_summary(summary))
+    print(f"wrote {csv_path}")
+    print(f"wrote {json_path}")
+    if traj.status != "ok":
+        print(f"simulation {traj.status}: {traj.message}", file=sys.stderr)
+    print(CAUTION)
+    return 0 if traj.status == "ok" else 1
+
+
 def _cmd_simulate(args) -> int:
     problem = load_problem(args.file)
-    # imported here so that ``check`` stays quick
-    from ascentplan.replay.simulate import simulate_command
-
     out = Path(args.out) if args.out is not None else Path("results") / problem.name
     schedule = Path(args.schedule) if args.schedule is not None else None
-    status = simulate_command(problem, out=out, schedule=schedule)
+    status = run_simulate(problem, out=out, schedule=schedule)
     return 0 if status is None else int(status)
 
 

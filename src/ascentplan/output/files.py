@@ -10,7 +10,9 @@ import os
 import numpy as np
 
 from ascentplan.cautions import CAUTION
-from ascentplan.replay.simulate import LOSS_NAMES, LOSS_QUANTITIES, PhaseControls, PhaseSchedule, Trajectory
+from ascentplan.replay.budget import LOSS_NAMES, LOSS_QUANTITIES
+from ascentplan.replay.schedule import PhaseControls, PhaseSchedule
+from ascentplan.replay.trajectory import Trajectory
 
 #: columns of a schedule CSV, in order
 SCHEDULE_COLUMNS = ("phase", "kind", "stage", "phase_time_s", "time_s", "throttle", "pitch_deg")
@@ -124,11 +126,11 @@ def simulation_summary(problem, trajectory: Trajectory) -> dict:
     """
     traj = trajectory
     deg = 180.0 / math.pi
-    i = traj._burnout_index()
+    i = traj.burnout_index()
     burnout = dict(time_s=float(traj.time[i]), altitude_m=_at(traj, "altitude", i),
                    speed_m_s=_at(traj, "speed", i),
                    flight_path_angle_deg=_at(traj, "flight_path_angle", i) * deg,
-                   mass_kg=float(traj.state[-1, i]))
+                   mass_kg=float(traj.kind.mass(traj.state[:, i])))
     apogees = [e for e in traj.events if e["kind"] == "apogee"]
     apogee = (dict(time_s=apogees[-1]["time"], altitude_m=apogees[-1]["altitude"])
               if apogees else None)
@@ -167,6 +169,31 @@ def write_json(d: dict, path) -> None:
     with open(path, "w", encoding="utf-8") as fh:
         json.dump(_clean(d), fh, indent=2, allow_nan=False)
         fh.write("\n")
+
+
+def write_simulation(problem, trajectory: Trajectory, folder) -> tuple[dict, str, str]:
+    """Write the results folder of a flight: ``trajectory.csv`` and ``summary.json``.
+
+    Parameters
+    ----------
+    problem : ascentplan.problem.Problem
+    trajectory : Trajectory
+    folder : str or path-like
+        Created if missing.
+
+    Returns
+    -------
+    summary, csv_path, json_path : dict, str, str
+        :func:`simulation_summary` and the files written.
+    """
+    folder = os.fspath(folder)
+    os.makedirs(folder, exist_ok=True)
+    csv_path = os.path.join(folder, "trajectory.csv")
+    json_path = os.path.join(folder, "summary.json")
+    write_trajectory_csv(trajectory, csv_path)
+    summary = simulation_summary(problem, trajectory)
+    write_json(summary, json_path)
+    return summary, csv_path, json_path
 
 
 def format_summary(summary: dict) -> str:
@@ -213,7 +240,7 @@ def format_summary(summary: dict) -> str:
 
 
 def write_schedule_csv(schedule: PhaseSchedule, path, phase_plan) -> None:
-    """Write a :class:`~ascentplan.simulate.PhaseSchedule` as a schedule CSV.
+    """Write a :class:`~ascentplan.replay.schedule.PhaseSchedule` as a schedule CSV.
 
     Columns ``phase,kind,stage,phase_time_s,time_s,throttle,pitch_deg``, one row per
     node; ``time_s`` is from liftoff with the scheduled durations, ``pitch_deg`` is
@@ -245,11 +272,11 @@ def write_schedule_csv(schedule: PhaseSchedule, path, phase_plan) -> None:
 
 
 def read_schedule_csv(path) -> PhaseSchedule:
-    """Read a schedule CSV into a :class:`~ascentplan.simulate.PhaseSchedule`.
+    """Read a schedule CSV into a :class:`~ascentplan.replay.schedule.PhaseSchedule`.
 
     The phase duration is the last ``phase_time_s`` of the phase; ``time_s`` is read
     for checking only. Phases must be numbered 0, 1, ... in order; ``kind`` and
-    ``stage`` are kept on each :class:`~ascentplan.simulate.PhaseControls` and checked
+    ``stage`` are kept on each :class:`~ascentplan.replay.schedule.PhaseControls` and checked
     against the problem's phase plan when flown.
 
     Raises

@@ -1,0 +1,326 @@
+"""Control schedules and the control laws that fly them.
+
+A schedule says what the controls are; a :class:`ControlLaw` turns it, phase by phase,
+into rules ``u(t, x)`` for the integration and says where phases end and where the
+controls may kink.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from dataclasses import dataclass
+
+import numpy as np
+
+from ascentplan.models import dynamics
+from ascentplan.problem.model import Phase, TimeSchedule
+
+#: length of the pitch-over kick of the default steering [s]
+KICK_DURATION = 5.0
+
+
+# --------------------------------------------------------------------------------------
+# schedules
+
+
+@dataclass(frozen=True)
+class PhaseControls:
+    """Controls of one phase at its nodes, linearly interpolated in time between them.
+
+    This is the control representation of the optimiser: piecewise linear in time
+    within a phase, held constant outside the node range.
+
+    Attributes
+    ----------
+    duration : float
+        Phase duration [s]. A burn whose propellant runs out earlier records a
+        ``flameout`` and coasts, engine off, to this scheduled end (staging is commanded
+        by time); a phase that ends at apogee ends there whatever its duration.
+    time : numpy.ndarray
+        Node times relative to the phase start [s], strictly increasing.
+    throttle : numpy.ndarray
+        Throttle at the nodes (fraction of full mass flow).
+    pitch : numpy.ndarray or None
+        Thrust pitch from the local horizontal at the nodes [rad]; required for a burn
+        of the planar model, ignored in rise (held at 90 deg) and coast phases.
+    kind, stage : str or None, int or None
+        The phase kind and stage this entry was written for; when given they are
+        checked against the phase plan.
+    """
+
+    duration: float
+    time: np.ndarray
+    throttle: np.ndarray
+    pitch: np.ndarray | None = None
+    kind: str | None = None
+    stage: int | None = None
+
+    def __post_init__(self):
+        time = np.asarray(self.time, dtype=float).reshape(-1)
+        throttle = np.asarray(self.throttle, dtype=float).reshape(-1)
+        duration = float(self.duration)
+        if not (np.isfinite(duration) and duration >= 0.0):
+            raise ValueError(f"phase duration: must be a finite number >= 0 s, got {duration}")
+        if time.size == 0:
+            raise ValueError("phase node times: need at least one node")
+        if not np.all(np.isfinite(time)) or np.any(np.diff(time) <= 0.0):
+            raise ValueError("phase node times: must be finite and strictly increasing")
+        if throttle.shape != time.shape:
+            raise ValueError(f"phase throttle: expected {time.size} values (one per node), "
+                             f"got {throttle.size}")
+        if not np.all(np.isfinite(throttle)) or np.any(throttle < 0.0):
+            raise ValueError("phase throttle: must be finite and >= 0")
+        object.__setattr__(self, "duration", duration)
+        object.__setattr__(self, "time", time)
+        object.__setattr__(self, "throttle", throttle)
+        if self.pitch is not None:
+            pitch = np.asarray(self.pitch, dtype=float).reshape(-1)
+            if pitch.shape != time.shape:
+                raise ValueError(f"phase pitch: expected {time.size} values (one per node), "
+                                 f"got {pitch.size}")
+            if not np.all(np.isfinite(pitch)):
+                raise ValueError("phase pitch: must be finite")
+            object.__setattr__(self, "pitch", pitch)
+
+
+@dataclass(frozen=True)
+class PhaseSchedule:
+    """One :class:`PhaseControls` per phase of :func:`~ascentplan.problem.phase_plan`."""
+
+    phases: tuple[PhaseControls, ...]
+
+    def __post_init__(self):
+        object.__setattr__(self, "phases", tuple(self.phases))
+
+
+def check_schedule(problem, plan, schedule) -> None:
+    """Refuse a schedule that does not fit the problem's phase plan.
+
+    Parameters
+    ----------
+    problem : ascentplan.problem.Problem
+    plan : list of ascentplan.problem.model.Phase
+        ``phase_plan(problem)``.
+    schedule : PhaseSchedule, TimeSchedule or None
+
+    Raises
+    ------
+    ValueError
+        Naming the first mismatch.
+    """
+    if schedule is None:
+        return
+    if isinstance(schedule, TimeSchedule):
+        _check_time_schedule(schedule)
+        return
+    if not isinstance(schedule, PhaseSchedule):
+        raise ValueError(f"schedule: expected None, a TimeSchedule or a PhaseSchedule, "
+                         f"got {type(schedule).__name__}")
+    if len(schedule.phases) != len(plan):
+        raise ValueError(f"schedule: has {len(schedule.phases)} phases, the phase plan has "
+                         f"{len(plan)} ({', '.join(p.kind for p in plan)})")
+    steered = dynamics.dynamics_kind(problem.dynamics).steered
+    for k, (pc, phase) in enumerate(zip(schedule.phases, plan)):
+        if pc.kind is not None and pc.kind != phase.kind:
+            raise ValueError(f"schedule phase {k}: kind {pc.kind!r}, the plan has "
+                             f"{phase.kind!r}")
+        if pc.stage is not None and pc.stage != phase.stage:
+            raise ValueError(f"schedule phase {k}: stage {pc.stage}, the plan has "
+                             f"{phase.stage}")
+        if steered and phase.kind == "burn" and pc.pitch is None:
+            raise ValueError(f"schedule phase {k}: a {problem.dynamics} burn needs a pitch at "
+                             f"each node")
+
+
+def _check_time_schedule(schedule: TimeSchedule) -> None:
+    time = np.asarray(schedule.time, dtype=float)
+    throttle = np.asarray(schedule.throttle, dtype=float)
+    if time.ndim != 1 or time.size == 0 or np.any(np.diff(time) <= 0):
+        raise ValueError("schedule.time: must be a non-empty, strictly increasing list [s]")
+    if throttle.shape != time.shape or np.any(throttle < 0) or not np.all(
+            np.isfinite(throttle)):
+        raise ValueError(f"schedule.throttle: expected {time.size} finite values >= 0")
+    if schedule.pitch is not None and np.asarray(schedule.pitch).shape != time.shape:
+        raise ValueError(f"schedule.pitch: expected {time.size} values [rad]")
+
+
+# --------------------------------------------------------------------------------------
+# control rules: u(t, x), vectorised over a trailing axis of samples
+
+
+class _Rule:
+    """Throttle(t) and, when steered, pitch(t, x); returns a list of controls."""
+
+    __slots__ = ("throttle", "pitch")
+
+    def __init__(self, throttle: Callable, pitch: Callable | None):
+        self.throttle = throttle
+        self.pitch = pitch
+
+    def __call__(self, t, x):
+        if self.pitch is None:
+            return [self.throttle(t)]
+        return [self.throttle(t), self.pitch(t, x)]
+
+    def sample(self, t, x) -> np.ndarray:
+        """Controls at sample times ``t`` (N,) and states ``x`` (n, N) as an (n_u, N) array."""
+        return np.vstack(np.broadcast_arrays(*[np.asarray(c, float) for c in self(t, x)]))
+
+    def engine_off(self) -> _Rule:
+        """The same steering with the throttle at zero (a stage that ran dry)."""
+        return _Rule(_Constant(0.0), self.pitch)
+
+
+class _Constant:
+    """A constant control, for any t."""
+
+    __slots__ = ("value",)
+
+    def __init__(self, value):
+        self.value = float(value)
+
+    def __call__(self, t, x=None):
+        return self.value + 0.0 * np.asarray(t, dtype=float)
+
+
+class _Interp:
+    """Linear interpolation on node times measured from ``offset``, held outside them."""
+
+    __slots__ = ("offset", "times", "values")
+
+    def __init__(self, offset, times, values):
+        self.offset, self.times, self.values = float(offset), times, values
+
+    def __call__(self, t, x=None):
+        return np.interp(t - self.offset, self.times, self.values)
+
+
+class _AirPath:
+    """Pitch along the air-relative velocity: zero angle of attack."""
+
+    __slots__ = ("model",)
+
+    def __init__(self, model):
+        self.model = model
+
+    def __call__(self, t, x):
+        return self.model.kind.air_pitch(x, self.model)
+
+
+class ControlLaw:
+    """Which rule flies each part of each phase, and where phases end.
+
+    ``throttle_source`` / ``pitch_source`` are ``"phases"`` (a :class:`PhaseSchedule`),
+    ``"time"`` (a :class:`~ascentplan.problem.TimeSchedule`) or ``"default"``.
+
+    Parameters
+    ----------
+    problem : ascentplan.problem.Problem
+    plan : list of ascentplan.problem.model.Phase
+        ``phase_plan(problem)``.
+    schedule : PhaseSchedule, TimeSchedule or None
+        Checked beforehand by :func:`check_schedule`.
+    """
+
+    def __init__(self, problem, plan, schedule):
+        self.problem = problem
+        self.plan = plan
+        self.model = dynamics.flight_model(problem)
+        # steered kinds fly a pitch schedule or the default gravity turn
+        self.steered = self.model.kind.steered
+        self.schedule = schedule
+        if isinstance(schedule, PhaseSchedule):
+            self.throttle_source = self.pitch_source = "phases"
+        elif isinstance(schedule, TimeSchedule):
+            self.throttle_source = "time"
+            self.pitch_source = "time" if (self.steered and schedule.pitch is not None) \
+                else "default"
+            self.time_nodes = np.asarray(schedule.time, dtype=float)
+            self.time_throttle = np.asarray(schedule.throttle, dtype=float)
+            self.time_pitch = (None if schedule.pitch is None
+                               else np.asarray(schedule.pitch, dtype=float))
+        else:
+            self.throttle_source = self.pitch_source = "default"
+        # the default steering kicks over in the first burn (after the vertical rise)
+        self.kick_phase = next(i for i, p in enumerate(plan) if p.kind == "burn")
+
+    def controls(self, k) -> PhaseControls | None:
+        """The scheduled controls of phase ``k``, or None when it has none."""
+        if self.throttle_source == "phases" and k < len(self.schedule.phases):
+            return self.schedule.phases[k]
+        return None
+
+    def phase_end(self, k, phase: Phase, t0: float) -> float | None:
+        """Scheduled end of phase ``k`` [s], or None when it ends on an event."""
+        if phase.ends_at_apogee:
+            return None
+        pc = self.controls(k)
+        if pc is not None:
+            return t0 + pc.duration
+        if phase.kind in ("rise", "coast"):
+            return t0 + float(phase.duration)
+        return None
+
+    def breaks(self, k, phase: Phase, t0: float) -> np.ndarray:
+        """Times [s] where the controls may kink: integration restarts there."""
+        if phase.kind == "coast":
+            return np.empty(0)
+        pc = self.controls(k)
+        if pc is not None:
+            return t0 + pc.time
+        if self.throttle_source == "time":
+            return self.time_nodes
+        return np.empty(0)
+
+    def modes(self, k, phase: Phase, t0: float):
+        """Control modes of the phase in order: (mode, end time or None, switch event)."""
+        if phase.kind in ("rise", "coast"):
+            return [(phase.kind, None, None)]
+        if self.steered and self.pitch_source == "default":
+            if k == self.kick_phase:
+                return [("kick", t0 + KICK_DURATION, self._kick_event()), ("turn", None, None)]
+            return [("turn", None, None)]
+        return [("fly", None, None)]
+
+    def _kick_event(self):
+        target = 0.5 * np.pi - self.problem.launch.pitch_over
+        if self.problem.launch.pitch_over == 0.0:
+            return None
+        c, s, model = math.cos(target), math.sin(target), self.model
+
+        def kick_done(t, y):
+            # sin(gamma_air - target)|w|: the air-relative flight path reached the kick
+            w_radial, w_horizontal = model.kind.air_relative_velocity(y, model)
+            return w_radial * c - w_horizontal * s
+
+        kick_done.terminal = True
+        kick_done.direction = -1
+        return kick_done
+
+    def rule(self, k, phase: Phase, t0: float, mode: str) -> _Rule:
+        """The controls ``u(t, x)`` of phase ``k`` (started at ``t0`` [s]) in ``mode``."""
+        stage = self.problem.vehicle.stages[phase.stage]
+        pc = self.controls(k)
+        if mode == "coast":
+            throttle = _Constant(0.0)
+        elif pc is not None:
+            throttle = _Interp(t0, pc.time, pc.throttle)
+        elif self.throttle_source == "time":
+            throttle = _Interp(0.0, self.time_nodes, self.time_throttle)
+        else:
+            throttle = _Constant(stage.throttle_max)
+        if not self.steered:
+            return _Rule(throttle, None)
+        if mode == "rise":
+            pitch = _Constant(0.5 * np.pi)
+        elif mode in ("coast", "turn"):
+            pitch = _AirPath(self.model)
+        elif mode == "kick":
+            pitch = _Constant(0.5 * np.pi - self.problem.launch.pitch_over)
+        elif pc is not None:
+            pitch = _Interp(t0, pc.time, pc.pitch)
+        else:
+            pitch = _Interp(0.0, self.time_nodes, self.time_pitch)
+        return _Rule(throttle, pitch)
+
