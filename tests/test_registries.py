@@ -1,9 +1,9 @@
 """The name lists that problem files are validated against match what the code implements."""
 
 from ascentplan.pipeline import OBJECTIVE_UNITS
+from ascentplan.problem.limits import LIMITS
 from ascentplan.problem.model import LIMIT_UNITS, OBJECTIVES, SCHEMES, Limits
 from ascentplan.transcription.collocation import COLLOCATION_SCHEMES
-from ascentplan.replay.verify import LIMIT_QUANTITIES
 
 
 def test_schemes_match_the_collocation_classes():
@@ -16,4 +16,4 @@ def test_objectives_have_units():
 
 def test_limits_have_units_and_replay_quantities():
     names = set(Limits().__dataclass_fields__)
-    assert names == set(LIMIT_UNITS) == set(LIMIT_QUANTITIES)
+    assert names == set(LIMIT_UNITS) == set(LIMITS)

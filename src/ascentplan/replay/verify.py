@@ -21,15 +21,9 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ascentplan.models.dynamics import altitude_speed_fpa
+from ascentplan.problem.limits import LIMITS
 from ascentplan.problem.model import Problem, phase_plan
-
-#: which trajectory quantity each limit bounds, and on which phase kinds it is imposed
-LIMIT_QUANTITIES = {
-    "max_dynamic_pressure": ("dynamic_pressure", ("rise", "burn", "coast")),
-    "max_axial_acceleration": ("axial_acceleration", ("rise", "burn")),
-    "max_q_alpha": ("q_alpha", ("burn",)),
-    "min_altitude": ("altitude", ("rise", "burn", "coast")),
-}
+from ascentplan.problem.objectives import OBJECTIVE_SPECS, Outcome
 
 
 @dataclass
@@ -53,55 +47,45 @@ class Verification:
 
 
 def limit_peaks(problem: Problem, trajectory) -> list[LimitCheck]:
-    """Peak of each imposed limit's quantity over the phases where it is imposed."""
+    """Peak of each imposed limit's quantity over the phases where it is imposed.
+
+    The peak is the extreme sample of the replay's dense time grid
+    (:meth:`~ascentplan.replay.trajectory.Trajectory.extreme`, not refined), on the
+    phases of the problem's plan whose kind the limit applies to (:data:`LIMITS`).
+    """
     kinds = [ph.kind for ph in phase_plan(problem)]
-    phase_idx = np.asarray(trajectory.phase)
-    t = np.asarray(trajectory.time)
+    flown = np.asarray(trajectory.phase)
     checks = []
     for name in problem.limits.active_names():
+        spec = LIMITS[name]
         bound = float(getattr(problem.limits, name))
-        qty, on_kinds = LIMIT_QUANTITIES[name]
-        mask = np.array([kinds[int(k)] in on_kinds if 0 <= int(k) < len(kinds) else False
-                         for k in phase_idx])
-        values = np.asarray(trajectory.quantities[qty], dtype=float)
-        if not mask.any():
+        imposed = [k for k, kind in enumerate(kinds) if kind in spec.phases]
+        if not np.isin(flown, imposed).any():
             checks.append(LimitCheck(name, bound, float("nan"), float("nan"), 0.0))
             continue
-        v = values[mask]
-        tt = t[mask]
-        if name == "min_altitude":
-            i = int(np.argmin(v))
-            excess = (bound - v[i]) / max(abs(bound), 1000.0)
-        elif name == "max_q_alpha":
-            i = int(np.argmax(np.abs(v)))
-            excess = (abs(v[i]) - bound) / bound
-        else:
-            i = int(np.argmax(v))
-            excess = (v[i] - bound) / bound
-        peak = abs(v[i]) if name == "max_q_alpha" else v[i]
-        checks.append(LimitCheck(name, bound, float(peak), float(tt[i]), float(excess)))
+        peak, time, _ = trajectory.extreme(spec.quantity, sense=spec.sense,
+                                           magnitude=spec.magnitude, phases=imposed,
+                                           refine=False)
+        checks.append(LimitCheck(name, bound, peak, time, float(spec.excess(peak, bound))))
     return checks
 
 
 def objective_from_trajectory(problem: Problem, trajectory, payload_mass: float,
                               propellant_used: float | None = None) -> float:
-    """The objective's value as flown by the replay."""
+    """The objective's value as flown by the replay (:data:`OBJECTIVE_SPECS`)."""
     name = problem.objective
-    xb = np.asarray(trajectory.burnout_state())
-    h, v, _ = altitude_speed_fpa(xb, problem.dynamics, problem.planet)
-    if name == "max_burnout_speed":
-        return float(v)
-    if name == "max_burnout_altitude":
-        return float(h)
-    if name == "max_apogee":
-        return float(np.max(trajectory.quantities["altitude"]))
-    if name == "max_payload":
-        return float(payload_mass)
-    if name == "min_liftoff_mass":
-        return float(np.asarray(trajectory.state)[-1, 0])
-    if name == "min_propellant":
-        return float(propellant_used if propellant_used is not None else np.nan)
-    raise ValueError(f"objective: unknown name {name!r}")
+    spec = OBJECTIVE_SPECS.get(name)
+    if spec is None:
+        raise ValueError(f"objective: unknown name {name!r}")
+    kind = trajectory.kind
+    state = np.asarray(trajectory.state)
+    outcome = Outcome(
+        kind=kind, planet=problem.planet, burnout_state=np.asarray(trajectory.burnout_state()),
+        apogee_altitude=float(np.max(trajectory.quantities["altitude"])),
+        payload_mass=payload_mass,
+        propellant_used=np.nan if propellant_used is None else float(propellant_used),
+        liftoff_mass=float(kind.mass(state)[0]))
+    return float(spec.value(outcome))
 
 
 def verify(problem: Problem, solution, trajectory) -> Verification:
@@ -148,7 +132,7 @@ def verify(problem: Problem, solution, trajectory) -> Verification:
 def _propellant_used(problem: Problem, trajectory) -> float:
     """Mass burnt over all powered phases of a trajectory [kg]."""
     phases = phase_plan(problem)
-    m = np.asarray(trajectory.state)[-1]
+    m = trajectory.kind.mass(np.asarray(trajectory.state))
     k = np.asarray(trajectory.phase)
     used = 0.0
     for j, ph in enumerate(phases):
