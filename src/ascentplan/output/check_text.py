@@ -5,14 +5,13 @@ from __future__ import annotations
 
 import math
 
-from ascentplan.models import aero
-from ascentplan.models import atmosphere
-from ascentplan.models import gravity
-from ascentplan.models.dynamics import dynamics_kind
 from ascentplan.cautions import CAUTION
 from ascentplan.constants import G0
+from ascentplan.models import aero, atmosphere, gravity
+from ascentplan.models.dynamics import dynamics_kind
+from ascentplan.problem.limits import LIMITS
 from ascentplan.problem.loader import liftoff_thrust, site_gravity
-from ascentplan.problem.model import LIMIT_UNITS, OBJECTIVES, Problem, Vehicle
+from ascentplan.problem.model import OBJECTIVES, Problem, Vehicle
 
 __all__ = ["ideal_delta_v", "vehicle_summary"]
 
@@ -57,8 +56,10 @@ def _table(rows: list[list[str]], right: set[int]) -> list[str]:
 
 
 def _limit_text(name: str, value: float) -> str:
-    unit, factor = LIMIT_UNITS.get(name, ("", 1.0))
-    return f"{name} {value / factor:.4g} {unit}".rstrip()
+    spec = LIMITS.get(name)
+    if spec is None:
+        return f"{name} {value:.4g}"
+    return f"{name} {spec.to_user(value):.4g} {spec.unit}".rstrip()
 
 
 def vehicle_summary(problem: Problem) -> str:
@@ -80,13 +81,27 @@ def vehicle_summary(problem: Problem) -> str:
     -------
     str
     """
-    v = problem.vehicle
-    tonnes = v.liftoff_mass >= _TONNE_THRESHOLD
-    mass_unit, mass_scale = ("t", 1e3) if tonnes else ("kg", 1.0)
+    mass = _MassText(problem.vehicle.liftoff_mass)
+    lines = _problem_lines(problem) + _stage_lines(problem.vehicle, mass)
+    lines += _liftoff_lines(problem) + _goal_lines(problem, mass)
+    lines.append("")
+    lines.append(CAUTION)
+    return "\n".join(lines) + "\n"
 
-    def mass(x: float) -> str:
-        return f"{x / mass_scale:.3f}" if tonnes else f"{x:.1f}"
 
+class _MassText:
+    """Masses as an engineer writes them: tonnes for a large vehicle, else kg."""
+
+    def __init__(self, liftoff_mass: float):
+        self.tonnes = liftoff_mass >= _TONNE_THRESHOLD
+        self.unit = "t" if self.tonnes else "kg"
+
+    def __call__(self, x: float) -> str:
+        return f"{x / 1e3:.3f}" if self.tonnes else f"{x:.1f}"
+
+
+def _problem_lines(problem: Problem) -> list[str]:
+    """Name, file, description, planet, models and launch site."""
     lines = [f"Problem: {problem.name} ({problem.dynamics} flight)"]
     if problem.source_path:
         lines.append(f"  file: {problem.source_path}")
@@ -109,13 +124,17 @@ def vehicle_summary(problem: Problem) -> str:
     if dynamics_kind(problem.dynamics).steered:
         launch += f", pitch-over {math.degrees(la.pitch_over):.2f} deg"
     lines.append(launch)
+    return lines
 
-    lines.append("")
+
+def _stage_lines(v: Vehicle, mass: _MassText) -> list[str]:
+    """The stage table, the liftoff mass and ideal velocity, and a line of notes per stage."""
+    lines = [""]
     lines.append("Stages (ideal velocity increment by the rocket equation, c ln(m_ignition/"
                  "m_burnout); burn time at full throttle):")
     dv = ideal_delta_v(v)
-    header = ["stage", f"propellant [{mass_unit}]", f"dry [{mass_unit}]",
-              f"total [{mass_unit}]", f"ignition [{mass_unit}]", f"burnout [{mass_unit}]",
+    header = ["stage", f"propellant [{mass.unit}]", f"dry [{mass.unit}]",
+              f"total [{mass.unit}]", f"ignition [{mass.unit}]", f"burnout [{mass.unit}]",
               "thrust vac [kN]", "Isp vac [s]", "throttle", "burn [s]", "ideal dv [m/s]"]
     rows = [header]
     for i, s in enumerate(v.stages):
@@ -126,35 +145,50 @@ def vehicle_summary(problem: Problem) -> str:
                      f"{s.full_throttle_burn_time:.1f}", f"{dv[i]:.1f}"])
     rows.append(["payload", "", "", mass(v.payload_mass), "", "", "", "", "", "", ""])
     lines.extend(_table(rows, right=set(range(1, len(header)))))
-    lines.append(f"  liftoff mass {mass(v.liftoff_mass)} {mass_unit}; total ideal dv "
+    lines.append(f"  liftoff mass {mass(v.liftoff_mass)} {mass.unit}; total ideal dv "
                  f"{sum(dv):.1f} m/s")
-    for i, s in enumerate(v.stages):
-        extra = []
-        if s.structural_ratio is not None:
-            extra.append(f"structural ratio {s.structural_ratio:.4f}")
-        if s.nozzle_exit_area:
-            extra.append(f"nozzle exit area {s.nozzle_exit_area:.4g} m^2")
-        if s.max_throttle_rate is not None:
-            extra.append(f"max throttle rate {s.max_throttle_rate:.4g} 1/s")
-        if s.coast_after:
-            extra.append(f"coast after {s.coast_after:.1f} s")
-        if s.propellant_min is not None or s.propellant_max is not None:
-            lo = "-" if s.propellant_min is None else mass(s.propellant_min)
-            hi = "-" if s.propellant_max is None else mass(s.propellant_max)
-            extra.append(f"propellant bounds {lo}..{hi} {mass_unit}")
-        accel = s.throttle_max * s.thrust_vacuum / (v.burnout_mass(i) * G0)
-        extra.append(f"vacuum acceleration at burnout {accel:.2f} g0 at top throttle")
-        lines.append(f"  {s.name}: " + ", ".join(extra))
+    lines.extend(_stage_notes(v, i, mass) for i in range(len(v.stages)))
+    return lines
 
+
+def _stage_notes(v: Vehicle, i: int, mass: _MassText) -> str:
+    """One line of what else is written for stage ``i``."""
+    s = v.stages[i]
+    extra = []
+    if s.structural_ratio is not None:
+        extra.append(f"structural ratio {s.structural_ratio:.4f}")
+    if s.nozzle_exit_area:
+        extra.append(f"nozzle exit area {s.nozzle_exit_area:.4g} m^2")
+    if s.max_throttle_rate is not None:
+        extra.append(f"max throttle rate {s.max_throttle_rate:.4g} 1/s")
+    if s.coast_after:
+        extra.append(f"coast after {s.coast_after:.1f} s")
+    if s.propellant_min is not None or s.propellant_max is not None:
+        lo = "-" if s.propellant_min is None else mass(s.propellant_min)
+        hi = "-" if s.propellant_max is None else mass(s.propellant_max)
+        extra.append(f"propellant bounds {lo}..{hi} {mass.unit}")
+    accel = s.throttle_max * s.thrust_vacuum / (v.burnout_mass(i) * G0)
+    extra.append(f"vacuum acceleration at burnout {accel:.2f} g0 at top throttle")
+    return f"  {s.name}: " + ", ".join(extra)
+
+
+def _liftoff_lines(problem: Problem) -> list[str]:
+    """Liftoff thrust-to-weight at the site."""
+    v, la = problem.vehicle, problem.launch
     thrust, pressure = liftoff_thrust(v, problem.atmosphere, la)
     g_site = site_gravity(problem.gravity, problem.planet, la)
     weight = v.liftoff_mass * g_site
-    lines.append("")
+    lines = [""]
     lines.append(f"Liftoff thrust-to-weight: {thrust / weight:.3f} (thrust {thrust / 1e3:.2f} kN "
                  f"at throttle {v.stages[0].throttle_max:.2f} and site pressure "
                  f"{pressure / 1e3:.3f} kPa; weight {weight / 1e3:.2f} kN at "
                  f"g = {g_site:.4f} m/s^2)")
+    return lines
 
+
+def _goal_lines(problem: Problem, mass: _MassText) -> list[str]:
+    """Limits, target, objective, mesh, stage-mass split and schedule."""
+    lines = []
     active = problem.limits.active_names()
     lines.append("Limits: " + (", ".join(_limit_text(k, getattr(problem.limits, k))
                                          for k in active) if active else "none"))
@@ -177,13 +211,11 @@ def vehicle_summary(problem: Problem) -> str:
                  f"limits {m.limit_tolerance_fraction:.3g}")
     if problem.mass_split is not None:
         ms = problem.mass_split
-        held = (f", liftoff mass {mass(ms.liftoff_mass)} {mass_unit}"
+        held = (f", liftoff mass {mass(ms.liftoff_mass)} {mass.unit}"
                 if ms.liftoff_mass is not None else "")
         lines.append(f"Stage-mass split: on, holding {ms.hold}{held}")
     if problem.schedule is not None:
         sc = problem.schedule
         lines.append(f"Schedule: {len(sc.time)} points over {sc.time[-1]:.1f} s"
                      + ("" if sc.pitch is None else ", with pitch"))
-    lines.append("")
-    lines.append(CAUTION)
-    return "\n".join(lines) + "\n"
+    return lines

@@ -10,6 +10,7 @@ import os
 import numpy as np
 
 from ascentplan.cautions import CAUTION
+from ascentplan.problem.limits import LIMITS
 from ascentplan.replay.budget import LOSS_NAMES, LOSS_QUANTITIES
 from ascentplan.replay.schedule import PhaseControls, PhaseSchedule
 from ascentplan.replay.trajectory import Trajectory
@@ -215,16 +216,18 @@ def format_summary(summary: dict) -> str:
         lines.append(f"apogee       t = {num(a['time_s'], '.2f')} s, altitude "
                      f"{num(a['altitude_m'] / 1e3, '.3f')} km")
     p = summary["peaks"]
+    dynamic_pressure, q_alpha = LIMITS["max_dynamic_pressure"], LIMITS["max_q_alpha"]
     q = p["dynamic_pressure"]
-    lines.append(f"max q        {num(q['value_Pa'] / 1e3, '.3f')} kPa at t = "
+    lines.append(f"max q        {num(dynamic_pressure.to_user(q['value_Pa']), '.3f')} "
+                 f"{dynamic_pressure.unit} at t = "
                  f"{num(q['time_s'], '.2f')} s, altitude {num(q['altitude_m'] / 1e3, '.2f')}"
                  f" km, Mach {num(q['mach'], '.2f')}")
     g = p["axial_acceleration"]
     lines.append(f"max axial    {num(g['value_g0'], '.3f')} g0 at t = {num(g['time_s'], '.2f')} s")
     if "q_alpha" in p:
         qa = p["q_alpha"]
-        lines.append(f"max q-alpha  {num(qa['value_Pa_rad'] / 1e3 * 180 / math.pi, '.3f')} "
-                     f"kPa deg at t = {num(qa['time_s'], '.2f')} s")
+        lines.append(f"max q-alpha  {num(q_alpha.to_user(qa['value_Pa_rad']), '.3f')} "
+                     f"{q_alpha.unit} at t = {num(qa['time_s'], '.2f')} s")
     lines.append("velocity budget [m/s]")
     losses = summary["losses_m_s"]
     for key, label in (("ideal", "ideal"), ("gravity", "gravity loss"),
@@ -276,8 +279,8 @@ def read_schedule_csv(path) -> PhaseSchedule:
 
     The phase duration is the last ``phase_time_s`` of the phase; ``time_s`` is read
     for checking only. Phases must be numbered 0, 1, ... in order; ``kind`` and
-    ``stage`` are kept on each :class:`~ascentplan.replay.schedule.PhaseControls` and checked
-    against the problem's phase plan when flown.
+    ``stage`` are kept on each :class:`~ascentplan.replay.schedule.PhaseControls` and
+    checked against the problem's phase plan when flown.
 
     Raises
     ------
@@ -285,6 +288,29 @@ def read_schedule_csv(path) -> PhaseSchedule:
         With the file, line and column of the first problem found.
     """
     name = os.fspath(path)
+    groups: list[list] = []
+    for line_no, cells in _schedule_rows(name):
+        k = _number(name, line_no, cells, "phase", integer=True)
+        if k == len(groups):
+            groups.append([])
+        elif k != len(groups) - 1:
+            expected = f"{len(groups) - 1} or {len(groups)}" if groups else "0"
+            raise ScheduleFileError(f"{name} line {line_no}: phase: expected {expected} "
+                                    f"(phases numbered from 0, in order), got {k}")
+        groups[-1].append(_schedule_node(name, line_no, cells, k, groups[-1]))
+
+    phases = []
+    for group in groups:
+        times = np.array([g[3] for g in group])
+        pitch = None if group[0][5] is None else np.radians([g[5] for g in group])
+        phases.append(PhaseControls(duration=float(times[-1]), time=times,
+                                    throttle=np.array([g[4] for g in group]), pitch=pitch,
+                                    kind=group[0][1], stage=group[0][2]))
+    return PhaseSchedule(tuple(phases))
+
+
+def _schedule_rows(name: str) -> list[tuple[int, dict]]:
+    """The non-blank rows of a schedule CSV after its header: (line number, cells)."""
     try:
         fh = open(name, newline="", encoding="utf-8")
     except OSError as exc:
@@ -313,69 +339,59 @@ def read_schedule_csv(path) -> PhaseSchedule:
             rows.append((line_no, {c: row[col[c]].strip() for c in SCHEDULE_COLUMNS}))
     if not rows:
         raise ScheduleFileError(f"{name}: no schedule rows after the header")
+    return rows
 
-    def number(line_no, cells, column, integer=False, optional=False):
-        text = cells[column]
-        if optional and text == "":
-            return None
-        try:
-            value = int(text) if integer else float(text)
-        except ValueError:
-            kind = "an integer" if integer else "a number"
-            raise ScheduleFileError(f"{name} line {line_no}: {column}: expected {kind}, "
-                                    f"got {text!r}") from None
-        if not integer and not math.isfinite(value):
-            raise ScheduleFileError(f"{name} line {line_no}: {column}: must be finite, "
-                                    f"got {text!r}")
-        return value
 
-    groups: list[list] = []
-    for line_no, cells in rows:
-        k = number(line_no, cells, "phase", integer=True)
-        if k == len(groups):
-            groups.append([])
-        elif k != len(groups) - 1:
-            expected = f"{len(groups) - 1} or {len(groups)}" if groups else "0"
-            raise ScheduleFileError(f"{name} line {line_no}: phase: expected {expected} "
-                                    f"(phases numbered from 0, in order), got {k}")
-        kind = cells["kind"]
-        if kind not in _PHASE_KINDS:
-            raise ScheduleFileError(f"{name} line {line_no}: kind: expected one of "
-                                    f"{', '.join(_PHASE_KINDS)}, got {kind!r}")
-        stage = number(line_no, cells, "stage", integer=True)
-        if stage < 0:
-            raise ScheduleFileError(f"{name} line {line_no}: stage: must be >= 0, got {stage}")
-        t_rel = number(line_no, cells, "phase_time_s")
-        number(line_no, cells, "time_s")
-        throttle = number(line_no, cells, "throttle")
-        if throttle < 0:
-            raise ScheduleFileError(f"{name} line {line_no}: throttle: must be >= 0, "
-                                    f"got {throttle}")
-        pitch = number(line_no, cells, "pitch_deg", optional=True)
-        group = groups[-1]
-        if group:
-            first_line, first_kind, first_stage = group[0][0], group[0][1], group[0][2]
-            if (kind, stage) != (first_kind, first_stage):
-                raise ScheduleFileError(
-                    f"{name} line {line_no}: phase {k} was {first_kind!r} of stage "
-                    f"{first_stage} on line {first_line}, now {kind!r} of stage {stage}")
-            if t_rel <= group[-1][3]:
-                raise ScheduleFileError(f"{name} line {line_no}: phase_time_s: must increase "
-                                        f"within phase {k}, got {t_rel} after "
-                                        f"{group[-1][3]}")
-            if (pitch is None) != (group[-1][5] is None):
-                raise ScheduleFileError(f"{name} line {line_no}: pitch_deg: give it on every "
-                                        f"node of phase {k} or on none")
-        elif t_rel < 0:
-            raise ScheduleFileError(f"{name} line {line_no}: phase_time_s: must be >= 0, "
-                                    f"got {t_rel}")
-        group.append((line_no, kind, stage, t_rel, throttle, pitch))
+def _number(name, line_no, cells, column, integer=False, optional=False):
+    """The number in one cell; None for an empty optional cell."""
+    text = cells[column]
+    if optional and text == "":
+        return None
+    try:
+        value = int(text) if integer else float(text)
+    except ValueError:
+        kind = "an integer" if integer else "a number"
+        raise ScheduleFileError(f"{name} line {line_no}: {column}: expected {kind}, "
+                                f"got {text!r}") from None
+    if not integer and not math.isfinite(value):
+        raise ScheduleFileError(f"{name} line {line_no}: {column}: must be finite, "
+                                f"got {text!r}")
+    return value
 
-    phases = []
-    for group in groups:
-        times = np.array([g[3] for g in group])
-        pitch = None if group[0][5] is None else np.radians([g[5] for g in group])
-        phases.append(PhaseControls(duration=float(times[-1]), time=times,
-                                    throttle=np.array([g[4] for g in group]), pitch=pitch,
-                                    kind=group[0][1], stage=group[0][2]))
-    return PhaseSchedule(tuple(phases))
+
+def _schedule_node(name, line_no, cells, k, group) -> tuple:
+    """One node of phase ``k``, checked against the nodes of the phase read so far.
+
+    Returns ``(line_no, kind, stage, phase_time_s, throttle, pitch_deg or None)``.
+    """
+    kind = cells["kind"]
+    if kind not in _PHASE_KINDS:
+        raise ScheduleFileError(f"{name} line {line_no}: kind: expected one of "
+                                f"{', '.join(_PHASE_KINDS)}, got {kind!r}")
+    stage = _number(name, line_no, cells, "stage", integer=True)
+    if stage < 0:
+        raise ScheduleFileError(f"{name} line {line_no}: stage: must be >= 0, got {stage}")
+    t_rel = _number(name, line_no, cells, "phase_time_s")
+    _number(name, line_no, cells, "time_s")
+    throttle = _number(name, line_no, cells, "throttle")
+    if throttle < 0:
+        raise ScheduleFileError(f"{name} line {line_no}: throttle: must be >= 0, "
+                                f"got {throttle}")
+    pitch = _number(name, line_no, cells, "pitch_deg", optional=True)
+    if group:
+        first_line, first_kind, first_stage = group[0][0], group[0][1], group[0][2]
+        if (kind, stage) != (first_kind, first_stage):
+            raise ScheduleFileError(
+                f"{name} line {line_no}: phase {k} was {first_kind!r} of stage "
+                f"{first_stage} on line {first_line}, now {kind!r} of stage {stage}")
+        if t_rel <= group[-1][3]:
+            raise ScheduleFileError(f"{name} line {line_no}: phase_time_s: must increase "
+                                    f"within phase {k}, got {t_rel} after "
+                                    f"{group[-1][3]}")
+        if (pitch is None) != (group[-1][5] is None):
+            raise ScheduleFileError(f"{name} line {line_no}: pitch_deg: give it on every "
+                                    f"node of phase {k} or on none")
+    elif t_rel < 0:
+        raise ScheduleFileError(f"{name} line {line_no}: phase_time_s: must be >= 0, "
+                                f"got {t_rel}")
+    return (line_no, kind, stage, t_rel, throttle, pitch)

@@ -2,11 +2,12 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Callable
 
 import numpy as np
+
 # Figure with its own Agg canvas never touches pyplot's global state, so plotting works
 # headless and inside a user's interactive session alike, and needs no explicit close.
 from matplotlib.backends.backend_agg import FigureCanvasAgg
@@ -14,7 +15,8 @@ from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 
 from ascentplan.models.dynamics import dynamics_kind, flight_model, flight_quantities, propulsion
-from ascentplan.problem.model import LIMIT_UNITS, Problem, phase_plan
+from ascentplan.problem.limits import LIMITS
+from ascentplan.problem.model import Problem, phase_plan
 
 __all__ = ["DPI", "PANELS", "plot_result", "plot_trajectory", "result_nodes"]
 
@@ -53,26 +55,40 @@ def _steered(problem: Problem) -> bool:
 
 
 def _with_q_alpha_limit(problem: Problem) -> bool:
-    return (dynamics_kind(problem.dynamics).provides("q_alpha")
-            and problem.limits.max_q_alpha is not None)
+    spec = LIMITS["max_q_alpha"]
+    return (spec.applies_to(dynamics_kind(problem.dynamics))
+            and getattr(problem.limits, spec.name) is not None)
+
+
+#: the limit on each limited quantity: its panel is drawn in the limit's user unit, so
+#: that the curves and the bound line share one axis
+_LIMIT_OF_QUANTITY = {spec.quantity: spec for spec in LIMITS.values()}
+
+
+def _unit(quantity: str) -> str:
+    return _LIMIT_OF_QUANTITY[quantity].unit
+
+
+def _in_limit_unit(quantity: str, values) -> np.ndarray:
+    """Values of a limited quantity as its limit measures them, in the limit's user unit."""
+    spec = _LIMIT_OF_QUANTITY[quantity]
+    return spec.to_user(spec.measured(np.asarray(values, dtype=float)))
 
 
 #: the panels in plotting order; ``key`` is also the PNG file stem
 PANELS = (
-    _Panel("altitude", "Altitude", "altitude [km]", _always),
+    _Panel("altitude", "Altitude", f"altitude [{_unit('altitude')}]", _always),
     _Panel("speed", "Speed", "speed [m/s]", _always),
-    _Panel("dynamic_pressure", "Dynamic pressure", "dynamic pressure [kPa]", _always),
-    _Panel("axial_acceleration", "Sensed axial acceleration", "axial acceleration [g0]",
-           _always),
-    _Panel("q_alpha", "Dynamic pressure times angle of attack", "|q alpha| [kPa deg]",
-           _with_q_alpha_limit),
+    _Panel("dynamic_pressure", "Dynamic pressure",
+           f"dynamic pressure [{_unit('dynamic_pressure')}]", _always),
+    _Panel("axial_acceleration", "Sensed axial acceleration",
+           f"axial acceleration [{_unit('axial_acceleration')}]", _always),
+    _Panel("q_alpha", "Dynamic pressure times angle of attack",
+           f"|q alpha| [{_unit('q_alpha')}]", _with_q_alpha_limit),
     _Panel("throttle", "Throttle", "throttle [fraction of full flow]", _always),
     _Panel("pitch", "Thrust pitch from local horizontal", "pitch [deg]", _steered),
     _Panel("mass", "Vehicle mass", "mass [t]", _always),
 )
-
-_Q_ALPHA_FACTOR = LIMIT_UNITS["max_q_alpha"][1]  # Pa rad per kPa deg
-
 
 def _quantity(trajectory, name: str) -> np.ndarray:
     return np.asarray(trajectory.quantities[name], dtype=float)
@@ -80,49 +96,35 @@ def _quantity(trajectory, name: str) -> np.ndarray:
 
 def _replay_lines(problem: Problem, trajectory, key: str) -> list[tuple[np.ndarray, dict, str]]:
     """The replay's curves of a panel: (values in plot units, line style, legend label)."""
-    if key == "altitude":
-        return [(_quantity(trajectory, "altitude") / 1000.0, _REPLAY_STYLE, "replay")]
+    if key in _LIMIT_OF_QUANTITY:
+        return [(_in_limit_unit(key, _quantity(trajectory, key)), _REPLAY_STYLE, "replay")]
+    kind = dynamics_kind(problem.dynamics)
     if key == "speed":
-        steered = dynamics_kind(problem.dynamics).steered
+        steered = kind.steered
         lines = [(_quantity(trajectory, "speed"), _REPLAY_STYLE,
                   "inertial" if steered else "replay")]
         if steered and "relative_speed" in trajectory.quantities:
             lines.append((_quantity(trajectory, "relative_speed"), _AIR_RELATIVE_STYLE,
                           "air-relative"))
         return lines
-    if key == "dynamic_pressure":
-        return [(_quantity(trajectory, "dynamic_pressure") / 1000.0, _REPLAY_STYLE, "replay")]
-    if key == "axial_acceleration":
-        return [(_quantity(trajectory, "axial_acceleration"), _REPLAY_STYLE, "replay")]
-    if key == "q_alpha":
-        return [(np.abs(_quantity(trajectory, "q_alpha")) / _Q_ALPHA_FACTOR, _REPLAY_STYLE,
-                 "replay")]
     controls = np.asarray(trajectory.controls, dtype=float)
     if key == "throttle":
-        return [(controls[0], _REPLAY_STYLE, "replay")]
+        return [(controls[kind.control_index("throttle")], _REPLAY_STYLE, "replay")]
     if key == "pitch":
-        return [(np.degrees(controls[1]), _REPLAY_STYLE, "replay")]
+        return [(np.degrees(controls[kind.control_index("pitch")]), _REPLAY_STYLE, "replay")]
     if key == "mass":
-        return [(np.asarray(trajectory.state, dtype=float)[-1] / 1000.0, _REPLAY_STYLE,
+        return [(kind.mass(np.asarray(trajectory.state, dtype=float)) / 1000.0, _REPLAY_STYLE,
                  "replay")]
     raise KeyError(key)
 
 
 def _bound(problem: Problem, key: str) -> tuple[float, str] | None:
     """The imposed limit drawn on a panel, in plot units, with its legend label."""
-    lim = problem.limits
-    if key == "dynamic_pressure" and lim.max_dynamic_pressure is not None:
-        value = lim.max_dynamic_pressure / 1000.0
-        return value, f"max dynamic pressure {value:.4g} kPa"
-    if key == "axial_acceleration" and lim.max_axial_acceleration is not None:
-        value = float(lim.max_axial_acceleration)
-        return value, f"max axial acceleration {value:.4g} g0"
-    if key == "q_alpha" and lim.max_q_alpha is not None:
-        value = lim.max_q_alpha / _Q_ALPHA_FACTOR
-        return value, f"max q alpha {value:.4g} kPa deg"
-    if key == "altitude" and lim.min_altitude is not None:
-        value = lim.min_altitude / 1000.0
-        return value, f"min altitude {value:.4g} km"
+    for spec in LIMITS.values():
+        bound = getattr(problem.limits, spec.name)
+        if spec.quantity == key and bound is not None:
+            value = spec.to_user(float(bound))
+            return value, f"{spec.label} {value:.4g} {spec.unit}"
     return None
 
 
@@ -138,7 +140,7 @@ def _node_quantities(problem: Problem, nodes) -> list[dict]:
     for j, entry in enumerate(nodes):
         times = np.asarray(entry[0], dtype=float).ravel()
         controls = np.atleast_2d(np.asarray(entry[1], dtype=float))
-        values = {"time": times, "throttle": controls[0]}
+        values = {"time": times, "throttle": controls[model.kind.control_index("throttle")]}
         if model.kind.steered and controls.shape[0] > 1:
             values["pitch"] = np.degrees(controls[model.kind.control_index("pitch")])
         if len(entry) > 2 and entry[2] is not None and j < len(phases):
@@ -146,13 +148,9 @@ def _node_quantities(problem: Problem, nodes) -> list[dict]:
             ph = phases[j]
             prop = propulsion(problem.vehicle.stages[ph.stage], ph.powered)
             f = flight_quantities(states, controls, model, prop)
-            speed = model.kind.speed(states)
-            values["altitude"] = np.asarray(f["altitude"]) / 1000.0
-            values["speed"] = np.asarray(speed)
-            values["dynamic_pressure"] = np.asarray(f["dynamic_pressure"]) / 1000.0
-            values["axial_acceleration"] = np.asarray(f["axial_acceleration"])
-            if "q_alpha" in f:
-                values["q_alpha"] = np.abs(np.asarray(f["q_alpha"])) / _Q_ALPHA_FACTOR
+            values.update({quantity: _in_limit_unit(quantity, f[quantity])
+                           for quantity in _LIMIT_OF_QUANTITY if quantity in f})
+            values["speed"] = np.asarray(model.kind.speed(states))
             values["mass"] = model.kind.mass(states) / 1000.0
         out.append(values)
     return out

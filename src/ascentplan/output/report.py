@@ -11,7 +11,8 @@ from pathlib import Path
 
 from ascentplan import __version__
 from ascentplan.cautions import CAUTION
-from ascentplan.problem.model import LIMIT_UNITS, OBJECTIVES, SCHEMES
+from ascentplan.problem.limits import LIMITS
+from ascentplan.problem.model import OBJECTIVES, SCHEMES
 
 __all__ = ["REPORT_NAME", "render_html", "render_report_from_folder", "write_report"]
 
@@ -69,6 +70,10 @@ figcaption { color: #555; font-size: 0.9em; }
 pre { background: #f6f6f6; padding: 0.6em; overflow-x: auto; }
 """
 
+
+#: the limit whose user unit shows each peak of a summary, by the peak's value key
+#: (``value_Pa``, ``value_g0``, ``value_Pa_rad``, ``value_m``: the SI unit of the limit)
+_PEAK_UNITS = {"value_" + spec.si_unit.replace(" ", "_"): spec for spec in LIMITS.values()}
 
 #: a cell that reads as a number (or n/a) is right-aligned in a numeric column
 _NUMERIC = re.compile(r"^(n/a|[-+]?[\d,]*\.?\d+(e[-+]?\d+)?)$")
@@ -186,7 +191,7 @@ def _limits_section(summary: dict) -> str:
     rows = []
     for lim in limits:
         name = str(lim.get("name", ""))
-        unit = lim.get("unit") or LIMIT_UNITS.get(name, ("",))[0]
+        unit = lim.get("unit") or (LIMITS[name].unit if name in LIMITS else "")
         rows.append([f"{_words(name)} ({name})", unit, _num(lim.get("bound"), 3),
                      _num(lim.get("peak"), 3), _num(lim.get("peak_time_s"), 2),
                      _yes_no(lim.get("active")), _num(lim.get("shadow_price"), 4),
@@ -281,14 +286,10 @@ def _peaks_section(summary: dict) -> str:
     for name, p in peaks.items():
         if not isinstance(p, dict):
             continue
-        if "value_Pa" in p:
-            value, unit = _num(p["value_Pa"], 3, 1000.0), "kPa"
-        elif "value_g0" in p:
-            value, unit = _num(p["value_g0"], 3), "g0"
-        elif "value_Pa_rad" in p:
-            value, unit = _num(p["value_Pa_rad"], 3, LIMIT_UNITS["max_q_alpha"][1]), "kPa deg"
-        elif "value_m" in p:
-            value, unit = _num(p["value_m"], 3, 1000.0), "km"
+        key = next((k for k in _PEAK_UNITS if k in p), None)
+        if key is not None:
+            spec = _PEAK_UNITS[key]
+            value, unit = _num(p[key], 3, spec.factor), spec.unit
         else:
             value, unit = "n/a", ""
         rows.append([_words(name), unit, value, _num(p.get("time_s"), 2),
