@@ -7,12 +7,19 @@ import math
 import numpy as np
 import pytest
 
+from ascentplan.constants import PLANETS
 from ascentplan.models.aero import ConstantDrag
 from ascentplan.models.atmosphere import ExponentialAtmosphere
-from ascentplan.constants import PLANETS
 from ascentplan.models.gravity import ConstantGravity, InverseSquareGravity
-from ascentplan.problem.model import (Aerodynamics, Launch, Planet, Problem, Stage, TimeSchedule,
-                                Vehicle)
+from ascentplan.problem.model import (
+    Aerodynamics,
+    Launch,
+    Planet,
+    Problem,
+    Stage,
+    TimeSchedule,
+    Vehicle,
+)
 from ascentplan.replay.simulate import LOSS_QUANTITIES, simulate
 
 EARTH = Planet("earth", **PLANETS["earth"])

@@ -14,17 +14,33 @@ from html.parser import HTMLParser
 import numpy as np
 import pytest
 
-from ascentplan.output import files as outputs
-from ascentplan.models.aero import ConstantDrag
-from ascentplan.models.atmosphere import ExponentialAtmosphere
 from ascentplan.cautions import CAUTION
 from ascentplan.constants import G0, PLANETS
+from ascentplan.models.aero import ConstantDrag
+from ascentplan.models.atmosphere import ExponentialAtmosphere
 from ascentplan.models.gravity import InverseSquareGravity
-from ascentplan.pipeline import solve
-from ascentplan.output.plots import DPI, _overview_figure, _panel_figure, plot_trajectory, result_nodes
-from ascentplan.problem.model import (Aerodynamics, Launch, Limits, Mesh, Planet, Problem, Stage,
-                                Target, Vehicle, phase_plan)
+from ascentplan.output import files as outputs
+from ascentplan.output.plots import (
+    DPI,
+    _overview_figure,
+    _panel_figure,
+    plot_trajectory,
+    result_nodes,
+)
 from ascentplan.output.report import render_report_from_folder, write_report
+from ascentplan.pipeline import solve
+from ascentplan.problem.model import (
+    Aerodynamics,
+    Launch,
+    Limits,
+    Mesh,
+    Planet,
+    Problem,
+    Stage,
+    Target,
+    Vehicle,
+    phase_plan,
+)
 from ascentplan.replay.simulate import simulate
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
