@@ -9,14 +9,24 @@ from dataclasses import replace
 
 import numpy as np
 import pytest
+from cases import vertical_q_problem
 
 from ascentplan.constants import G0
 from ascentplan.problem.loader import load_problem
-from ascentplan.study.sweep import (STUDY_CSV, STUDY_JSON, STUDY_JSONL, Study, StudyError,
-                              apply_changes, dispersion, limit_sweep, run_study,
-                              summarise_study, sweep_command, sweep_slopes)
-
-from cases import vertical_q_problem
+from ascentplan.study.sweep import (
+    STUDY_CSV,
+    STUDY_JSON,
+    STUDY_JSONL,
+    Study,
+    StudyError,
+    apply_changes,
+    dispersion,
+    limit_sweep,
+    run_study,
+    summarise_study,
+    sweep_command,
+    sweep_slopes,
+)
 
 # Invented vehicle: the single-stage throttleable rocket of cases.vertical_q_problem, as a
 # file (studies send workers a path), on a coarse mesh to keep each solve well under 1 s.

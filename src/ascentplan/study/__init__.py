@@ -1,1 +1,4 @@
-"""Trade studies: limit sweeps and dispersions on local processes or Dask, resumable."""
+"""Trade studies: limit sweeps and dispersions on local processes or Dask, resumable.
+
+The public names are gathered in :mod:`ascentplan.study.sweep`.
+"""
