@@ -212,7 +212,7 @@ def _add_report(subparsers) -> None:
 
 def _cmd_sweep(args) -> int:
     load_problem(args.file)  # report a bad file before any worker starts
-    from ascentplan.study.sweep import sweep_command
+    from ascentplan.study.command import sweep_command
 
     return sweep_command(args.file, limit=args.limit, values=args.values,
                          dispersion=args.dispersion, samples=args.samples, seed=args.seed,
