@@ -269,7 +269,7 @@ def test_changes_apply_in_si_and_derived_masses_follow():
     assert s.thrust_vacuum == pytest.approx(2.5 * G0 * new.vehicle.liftoff_mass, rel=1e-12)
     with pytest.raises(StudyError, match=r"dry_mass: must be > 0 kg, got -50.0"):
         apply_changes(problem, {"vehicle.stages[0].dry_mass": -50.0})
-    with pytest.raises(StudyError, match="thrust-to-weight would be 0.58"):
+    with pytest.raises(StudyError, match="thrust-to-weight is 0.58"):
         apply_changes(problem, {"vehicle.stages[0].thrust_vacuum": 20e3})
 
 
@@ -301,7 +301,7 @@ def test_sweep_command_exit_status_and_output(problem_file, tmp_path, capsys):
     assert status == 1  # a point raised
     failed = {r["index"]: r["error"] for r in _jsonl(out / STUDY_JSONL)}
     assert failed[0] is None
-    assert "limits.max_dynamic_pressure: must be > 0 Pa, got -5000.0" in failed[1]
+    assert "limits.max_dynamic_pressure: must be > 0 kPa, got -5000.0" in failed[1]
     assert "2 points: 1 optimal, 1 failed" in printed
     assert str(out / STUDY_CSV) in printed and "Caution" in printed
     # bad input is exit status 2 with the argument named, and nothing is run
