@@ -16,9 +16,9 @@ from pathlib import Path
 
 import numpy as np
 
-from ascentplan.transcription.nlp import structural_ratio
-from ascentplan.pipeline import OBJECTIVE_UNITS, Result, solve
+from ascentplan.pipeline import Result, solve
 from ascentplan.problem.model import Problem, Vehicle
+from ascentplan.problem.objectives import OBJECTIVE_SPECS
 from ascentplan.staging.rocket_equation import StageSplit, optimal_split, split_for_vehicle
 
 #: a rocket-equation stage this small (fraction of its written propellant) is kept at it,
@@ -41,7 +41,7 @@ def analytic_split(problem: Problem) -> StageSplit:
     if split.hold == "liftoff_mass":
         held = split.liftoff_mass if split.liftoff_mass is not None else veh.liftoff_mass
         return optimal_split([s.exhaust_speed for s in veh.stages],
-                             [structural_ratio(s) for s in veh.stages],
+                             [s.ratio_of_structure for s in veh.stages],
                              payload_mass=veh.payload_mass, liftoff_mass=held,
                              stage_names=[s.name for s in veh.stages])
     return split_for_vehicle(veh, hold="payload")
@@ -79,7 +79,8 @@ def solve_with_split_comparison(problem: Problem, *, map_points: int | None = No
     # the result speaks of the problem as written
     coupled.problem = problem
 
-    unit, div = OBJECTIVE_UNITS[problem.objective]
+    objective = OBJECTIVE_SPECS[problem.objective]
+    unit, div = objective.unit, objective.divisor
     stages = []
     for i, s in enumerate(problem.vehicle.stages):
         a = fixed.solved_problem.vehicle.stages[i]
@@ -145,7 +146,7 @@ def split_map(result: Result, *, points: int = 9, span: float | None = None) -> 
     if span is None:
         span = 0.25 * float(np.min(center))
     grid, ax1, ax2 = _fractions_grid(center, points, span)
-    eps = [structural_ratio(s) for s in veh.stages]
+    eps = [s.ratio_of_structure for s in veh.stages]
     fixed_base = replace(base, mass_split=None)
     values, statuses = [], []
     previous = None
@@ -163,7 +164,7 @@ def split_map(result: Result, *, points: int = 9, span: float | None = None) -> 
         statuses.append(r.status)
         if r.status == "optimal":
             previous = r
-    unit, div = OBJECTIVE_UNITS[base.objective]
+    div = OBJECTIVE_SPECS[base.objective].divisor
     out = {"stage_names": [s.name for s in veh.stages], "total_stage_mass_kg": total,
            "center_fractions": center.tolist(),
            "fractions": [g.tolist() for g in grid],

@@ -5,8 +5,9 @@ from __future__ import annotations
 import numpy as np
 
 from ascentplan.models.dynamics import dynamics_kind
-from ascentplan.transcription.nlp import Guess, nodes_for_phase
 from ascentplan.problem.model import Problem, phase_plan
+from ascentplan.transcription.phases import nodes_for_phase
+from ascentplan.transcription.solution import Guess
 
 
 def _phase_samples(trajectory, j):
@@ -28,6 +29,7 @@ def guess_from_trajectory(problem: Problem, trajectory, nodes_per_phase: int) ->
     kind = dynamics_kind(problem.dynamics)
     n_u = kind.n_controls
     steered = kind.has_control("pitch")
+    throttle = kind.control_index("throttle")
     for j, ph in enumerate(phases):
         N = nodes_for_phase(ph, nodes_per_phase)
         t, x, u = _phase_samples(trajectory, j)
@@ -41,7 +43,7 @@ def guess_from_trajectory(problem: Problem, trajectory, nodes_per_phase: int) ->
             d = ph.duration if ph.duration is not None else stages[ph.stage].full_throttle_burn_time
             X = np.repeat(last_state[:, None], N, axis=1)
             Uc = np.zeros((n_u, N))
-            Uc[0] = stages[ph.stage].throttle_max if ph.powered else 0.0
+            Uc[throttle] = stages[ph.stage].throttle_max if ph.powered else 0.0
         if ph.duration is not None:
             d = ph.duration
         if not ph.powered:
@@ -51,8 +53,8 @@ def guess_from_trajectory(problem: Problem, trajectory, nodes_per_phase: int) ->
             if ph.kind == "rise":
                 Uc[pitch] = 0.5 * np.pi
             Uc[pitch] = np.clip(Uc[pitch], -0.5 * np.pi, 0.5 * np.pi)
-        Uc[0] = np.clip(Uc[0], stages[ph.stage].throttle_min if ph.powered else 0.0,
-                        stages[ph.stage].throttle_max if ph.powered else 0.0)
+        Uc[throttle] = np.clip(Uc[throttle], stages[ph.stage].throttle_min if ph.powered else 0.0,
+                               stages[ph.stage].throttle_max if ph.powered else 0.0)
         durations.append(d)
         states.append(X)
         controls.append(Uc)

@@ -1,0 +1,131 @@
+"""The stack masses and thrusts of the NLP: parameters, or decision variables when free.
+
+Masses and thrusts are NLP parameters, so that a re-solve with other values reuses the
+built solver; the payload (when the objective maximises it) and, in a stage-mass split,
+the propellant masses are decision variables instead. Dry masses, masses above each stage
+and thrusts then follow by the rules of :mod:`ascentplan.problem.model`, written once for
+numbers and symbols.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from ascentplan.problem.model import Problem, dry_mass_from_ratio, stack_masses, thrust_from_ratio
+
+#: bounds of the one factor on all propellant masses of a proportional split
+_SPLIT_SCALE = (0.05, 20.0)
+
+#: default bounds of a stage's propellant mass in a split, as fractions of the written mass
+_PROPELLANT_RANGE = (0.02, 20.0)
+
+
+@dataclass(frozen=True)
+class StackMasses:
+    """Masses [kg] and thrusts [N] of the stack as NLP expressions, first stage first.
+
+    Attributes
+    ----------
+    payload : symbol
+    propellant, dry, above, ignition, burnout, thrust : list of symbol
+        Per stage: propellant and dry mass, the mass it carries, the stack mass at its
+        ignition and at its burnout, and its vacuum thrust.
+    """
+
+    payload: object
+    propellant: list
+    dry: list
+    above: list
+    ignition: list
+    burnout: list
+    thrust: list
+
+
+def payload_is_free(problem: Problem) -> bool:
+    """Whether the optimiser chooses the payload mass (the objective maximises it)."""
+    return problem.objective == "max_payload"
+
+
+def mass_parameter_sizes(problem: Problem) -> list[tuple[str, int]]:
+    """Names and lengths of the mass and thrust parameters of the NLP.
+
+    ``structure`` is per stage the dry mass, or in a stage-mass split the structural ratio
+    (the dry mass then follows the propellant); ``liftoff_mass`` is the one a split holds.
+    """
+    n = len(problem.vehicle.stages)
+    return [("payload", 1), ("propellant", n), ("structure", n), ("thrust", n),
+            ("liftoff_mass", 1)]
+
+
+def mass_parameter_values(problem: Problem, split: bool) -> dict:
+    """Values of the parameters of :func:`mass_parameter_sizes` [kg, N, -]."""
+    veh = problem.vehicle
+    if split:
+        structure = [s.ratio_of_structure for s in veh.stages]
+    else:
+        structure = [s.dry_mass for s in veh.stages]
+    held = veh.liftoff_mass
+    if problem.mass_split is not None and problem.mass_split.liftoff_mass is not None:
+        held = problem.mass_split.liftoff_mass
+    return {"payload": veh.payload_mass,
+            "propellant": [s.propellant_mass for s in veh.stages],
+            "structure": structure,
+            "thrust": [s.thrust_vacuum for s in veh.stages],
+            "liftoff_mass": held}
+
+
+def _propellant(problem: Problem, variables, params, mass_scale: float) -> list:
+    """Per stage the propellant mass: a parameter, or a decision variable in a split."""
+    stages = problem.vehicle.stages
+    written = params.entries("propellant")
+    split = problem.mass_split
+    if split is None:
+        return written
+    if split.proportional:
+        # every stage scaled by one factor: the rocket-equation split's proportions kept
+        factor = variables.add("split_scale", (1, 1), *_SPLIT_SCALE)
+        return [factor * p for p in written]
+    lo, hi = _PROPELLANT_RANGE
+    lower = [st.propellant_min if st.propellant_min is not None else lo * st.propellant_mass
+             for st in stages]
+    upper = [st.propellant_max if st.propellant_max is not None else hi * st.propellant_mass
+             for st in stages]
+    scaled = variables.add("propellant", (len(stages), 1),
+                           [v / mass_scale for v in lower], [v / mass_scale for v in upper])
+    return [scaled[i] * mass_scale for i in range(len(stages))]
+
+
+def add_stack_masses(problem: Problem, variables, params, mass_scale: float) -> StackMasses:
+    """The stack's masses and thrusts, adding the free ones to ``variables``.
+
+    Parameters
+    ----------
+    problem : Problem
+    variables : VariableLayout
+        Receives ``payload``, ``split_scale`` or ``propellant`` when they are free.
+    params : ParameterLayout
+        Holds the parameters of :func:`mass_parameter_sizes`.
+    mass_scale : float
+        Scale of the mass variables [kg].
+    """
+    stages = problem.vehicle.stages
+    split = problem.mass_split is not None
+    if payload_is_free(problem):
+        payload = variables.add("payload", (1, 1), 0.0, 1.0) * mass_scale
+    else:
+        payload = params.scalar("payload")
+    propellant = _propellant(problem, variables, params, mass_scale)
+    structure = params.entries("structure")
+    if split:
+        dry = [dry_mass_from_ratio(p, r) for p, r in zip(propellant, structure)]
+    else:
+        dry = structure
+    above, ignition, burnout = stack_masses(payload, propellant, dry)
+    thrust = []
+    for i, (stage, written) in enumerate(zip(stages, params.entries("thrust"))):
+        if split and stage.thrust_to_weight is not None:
+            thrust.append(thrust_from_ratio(stage.thrust_to_weight, ignition[i]))
+        else:
+            thrust.append(written)
+    return StackMasses(payload=payload, propellant=propellant, dry=dry, above=above,
+                       ignition=ignition, burnout=burnout, thrust=thrust)

@@ -1,0 +1,117 @@
+"""Pieces of one phase of the collocation NLP: its mesh, bounds, path limits and model.
+
+Everything here is a pure function of the problem and the phase; the NLP
+(:class:`ascentplan.transcription.nlp.AscentNLP`) assembles the pieces.
+"""
+
+from __future__ import annotations
+
+import casadi as ca
+import numpy as np
+
+from ascentplan.models import dynamics
+from ascentplan.problem.limits import LIMITS, LimitSpec
+from ascentplan.problem.model import Phase, Problem
+
+#: bounds on a free phase duration, in units of its duration scale
+_FREE_DURATION = (1e-3, 50.0)
+
+#: for each quantity that sets a variable scale, the states that carry it, most telling
+#: first; a kind's first state in this list gives the quantity its scale
+_CARRIERS = {
+    "altitude": ("altitude", "radius"),
+    "speed": ("horizontal_speed", "vertical_speed"),
+    "radial_speed": ("radial_speed", "vertical_speed"),
+    "mass": ("mass",),
+}
+
+
+def nodes_for_phase(phase: Phase, nodes_per_phase: int) -> int:
+    """Mesh nodes of a phase: short fixed segments get fewer."""
+    if phase.kind == "rise":
+        return max(5, nodes_per_phase // 4)
+    if phase.kind == "coast" and not phase.ends_at_apogee:
+        return max(5, nodes_per_phase // 4)
+    return nodes_per_phase
+
+
+def carrier_state(kind, quantity: str) -> int | None:
+    """Index of the state of ``kind`` whose scale measures ``quantity``, or None.
+
+    ``quantity`` is ``"altitude"``, ``"speed"``, ``"radial_speed"`` or ``"mass"``; e.g. the
+    altitude of the planar kind is measured in the scale of its radius.
+    """
+    for name in _CARRIERS.get(quantity, ()):
+        if name in kind.state_names:
+            return kind.index(name)
+    return None
+
+
+def control_bounds(kind, phase: Phase, stage) -> tuple[list, list]:
+    """Lower and upper bounds of each control of ``kind`` on ``phase`` (pitch [rad]).
+
+    The throttle stays in the stage's range while powered and at zero in a coast; the
+    pitch is vertical in the rise, within +-90 deg while powered and zero in a coast
+    (where it has no effect).
+    """
+    if phase.powered:
+        throttle = (stage.throttle_min, stage.throttle_max)
+    else:
+        throttle = (0.0, 0.0)
+    if phase.kind == "rise":
+        pitch = (0.5 * np.pi, 0.5 * np.pi)
+    elif phase.powered:
+        pitch = (-0.5 * np.pi, 0.5 * np.pi)
+    else:
+        pitch = (0.0, 0.0)
+    bounds = {"throttle": throttle, "pitch": pitch}
+    names = kind.control_names
+    return [bounds[n][0] for n in names], [bounds[n][1] for n in names]
+
+
+def duration_bounds(phase: Phase, duration_scale: float) -> tuple[float, float]:
+    """Bounds of a phase's scaled duration: fixed when the phase's duration is given."""
+    if phase.duration is not None:
+        fixed = phase.duration / duration_scale
+        return fixed, fixed
+    return _FREE_DURATION
+
+
+def limits_on(problem: Problem, kind, phase: Phase) -> list[LimitSpec]:
+    """The path limits the NLP imposes on ``phase``, in the order of :data:`LIMITS`."""
+    return [spec for spec in LIMITS.values()
+            if getattr(problem.limits, spec.name) is not None
+            and phase.kind in spec.phases and spec.applies_to(kind)]
+
+
+def last_of_stage(phases: list[Phase], j: int) -> bool:
+    """Whether phase ``j`` is the last powered phase of its stage."""
+    ph = phases[j]
+    return ph.powered and (j + 1 >= len(phases) or phases[j + 1].kind != "burn"
+                           or phases[j + 1].stage != ph.stage)
+
+
+def node_function(model, phase: Phase, stage, quantities) -> ca.Function:
+    """SX Function (x_phys, u, [thrust, c]) -> (xdot, [the flight quantities named]).
+
+    Parameters
+    ----------
+    model : FlightModel
+    phase : Phase
+    stage : Stage
+        The stage flown (its nozzle exit area, when powered).
+    quantities : sequence of str
+        Keys of :func:`ascentplan.models.dynamics.flight_quantities`, one row each.
+    """
+    x = ca.SX.sym("x", model.n_states)
+    u = ca.SX.sym("u", model.n_controls)
+    engine = ca.SX.sym("prop", 2)
+    exit_area = stage.nozzle_exit_area if phase.powered else 0.0
+    prop = dynamics.Propulsion(engine[0], engine[1], exit_area)
+    xdot = dynamics.rhs(0.0, x, u, (model, prop))
+    fq = dynamics.flight_quantities(x, u, model, prop)
+    Q = ca.vertcat(*[fq[name] for name in quantities])
+    if Q.shape[0] == 0:
+        # a Function output may not be empty
+        Q = ca.SX(1, 1)
+    return ca.Function("node", [x, u, engine], [xdot, Q])
