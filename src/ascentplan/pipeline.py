@@ -13,42 +13,75 @@ import numpy as np
 
 from ascentplan.cautions import CAUTION
 from ascentplan.models.dynamics import altitude_speed_fpa, dynamics_kind
-from ascentplan.transcription.guess import guess_from_solution, guess_from_trajectory, scales_for
-from ascentplan.transcription.nlp import AscentNLP, NLPSolution, structure_key
-from ascentplan.problem.model import LIMIT_UNITS, Problem, phase_plan
+from ascentplan.problem.limits import LIMITS
+from ascentplan.problem.model import Problem, phase_plan
+from ascentplan.problem.objectives import OBJECTIVE_SPECS, OBJECTIVE_UNITS
 from ascentplan.replay.simulate import PhaseControls, PhaseSchedule, simulate
 from ascentplan.replay.verify import Verification, verify
+from ascentplan.transcription.guess import guess_from_solution, guess_from_trajectory, scales_for
+from ascentplan.transcription.masses import payload_is_free
+from ascentplan.transcription.nlp import AscentNLP, NLPSolution, structure_key
 
-#: objective units shown to the user: name -> (unit, SI-to-unit divisor)
-from ascentplan.problem.objectives import OBJECTIVE_UNITS  # noqa: E402  (re-exported)
-
-_NLP_CACHE: dict = {}
-_CACHE_SIZE = 8
-
+# OBJECTIVE_UNITS is re-exported: callers have long imported the objective units from here
+__all__ = ["ACCELERATE_AFTER", "NLPCache", "OBJECTIVE_UNITS", "Result", "clear_cache",
+           "first_guess", "format_result", "solve", "write_outputs"]
 
 #: solves of one cached NLP after which its derivatives are expanded to SX (see
 #: AscentNLP.accelerate): the expansion costs about as much as two or three solves
 ACCELERATE_AFTER = 2
 
 
-def _cached_nlp(problem: Problem, scales: dict, nodes: int) -> tuple[AscentNLP, bool]:
-    key = (structure_key(problem), nodes)
-    nlp = _NLP_CACHE.get(key)
-    if nlp is not None:
-        nlp.reuses = getattr(nlp, "reuses", 0) + 1
-        if nlp.reuses >= ACCELERATE_AFTER:
-            nlp.accelerate()
-        return nlp, True
-    nlp = AscentNLP(problem, scales, nodes_per_phase=nodes)
-    if len(_NLP_CACHE) >= _CACHE_SIZE:
-        _NLP_CACHE.pop(next(iter(_NLP_CACHE)))
-    _NLP_CACHE[key] = nlp
-    return nlp, False
+class NLPCache:
+    """Built NLPs by problem structure and mesh, so that a re-solve skips the build.
+
+    A cached NLP keeps the variable scales of the problem that built it. After
+    :data:`ACCELERATE_AFTER` reuses its derivatives are expanded (a one-off cost that
+    pays over further solves of the structure: sweeps, maps, warm starts).
+
+    Parameters
+    ----------
+    size : int
+        Most NLPs kept; the oldest built is dropped first.
+    accelerate_after : int
+        Reuses after which an NLP is accelerated.
+    """
+
+    def __init__(self, size: int = 8, accelerate_after: int = ACCELERATE_AFTER):
+        self.size = size
+        self.accelerate_after = accelerate_after
+        self._entries: dict = {}  # key -> [nlp, reuses]
+
+    def __len__(self) -> int:
+        return len(self._entries)
+
+    def get(self, problem: Problem, scales: dict, nodes: int) -> tuple[AscentNLP, bool]:
+        """The NLP of ``problem``'s structure on ``nodes`` nodes per phase, and whether it
+        was reused (else it is built now with ``scales``)."""
+        key = (structure_key(problem), nodes)
+        entry = self._entries.get(key)
+        if entry is not None:
+            entry[1] += 1
+            if entry[1] >= self.accelerate_after:
+                entry[0].accelerate()
+            return entry[0], True
+        nlp = AscentNLP(problem, scales, nodes_per_phase=nodes)
+        if len(self._entries) >= self.size:
+            self._entries.pop(next(iter(self._entries)))
+        self._entries[key] = [nlp, 0]
+        return nlp, False
+
+    def clear(self) -> None:
+        """Forget every built NLP (they are rebuilt on demand)."""
+        self._entries.clear()
+
+
+#: the cache :func:`solve` uses
+NLP_CACHE = NLPCache()
 
 
 def clear_cache() -> None:
     """Forget every built NLP (they are rebuilt on demand)."""
-    _NLP_CACHE.clear()
+    NLP_CACHE.clear()
 
 
 @dataclass
@@ -81,14 +114,17 @@ class Result:
         h, v, fpa = altitude_speed_fpa(xb, self.problem.dynamics, self.problem.planet)
         last = max(j for j, ph in enumerate(phase_plan(self.problem)) if ph.powered)
         t_b = float(np.sum(self.solution.durations[: last + 1]))
+        mass = dynamics_kind(self.problem.dynamics).mass(xb)
         return {"time_s": t_b, "altitude_m": float(h), "speed_m_s": float(v),
-                "flight_path_angle_deg": float(np.degrees(fpa)), "mass_kg": float(xb[-1])}
+                "flight_path_angle_deg": float(np.degrees(fpa)), "mass_kg": float(mass)}
 
     def limits(self) -> list[dict]:
-        obj_unit, obj_div = OBJECTIVE_UNITS[self.problem.objective]
+        objective = OBJECTIVE_SPECS[self.problem.objective]
+        obj_unit, obj_div = objective.unit, objective.divisor
         out = []
         for c in self.verification.limits:
-            unit, factor = LIMIT_UNITS[c.name]
+            spec = LIMITS[c.name]
+            unit, factor = spec.unit, spec.factor
             price_si = self.solution.shadow_prices.get(c.name, 0.0)
             active = c.name in self.solution.binding
             # multipliers are sensitivities only at a converged optimum
@@ -117,7 +153,8 @@ class Result:
 
     def summary(self) -> dict:
         """The summary.json content (keys documented in the README)."""
-        unit, div = OBJECTIVE_UNITS[self.problem.objective]
+        objective = OBJECTIVE_SPECS[self.problem.objective]
+        unit, div = objective.unit, objective.divisor
         v = self.verification
         d = {
             "problem": self.problem.name,
@@ -150,14 +187,17 @@ class Result:
 
 
 def _replay(problem: Problem, solution: NLPSolution):
+    """The optimised schedule, and the trajectory it flies in the forward simulation."""
+    kind = dynamics_kind(problem.dynamics)
+    throttle = kind.control_index("throttle")
+    pitch = kind.control_index("pitch") if kind.has_control("pitch") else None
     entries = []
     for j in range(len(phase_plan(problem))):
         U = solution.controls[j]
         rel = solution.times[j] - solution.times[j][0]
-        pitch = U[1] if U.shape[0] > 1 else None
         entries.append(PhaseControls(duration=float(solution.durations[j]), time=rel,
-                                     throttle=U[0].copy(),
-                                     pitch=None if pitch is None else pitch.copy()))
+                                     throttle=U[throttle].copy(),
+                                     pitch=None if pitch is None else U[pitch].copy()))
     schedule = PhaseSchedule(tuple(entries))
     trajectory = simulate(problem, schedule, coast_to_apogee=False)
     return schedule, trajectory
@@ -166,7 +206,7 @@ def _replay(problem: Problem, solution: NLPSolution):
 def _with_solution_masses(problem: Problem, solution: NLPSolution) -> Problem:
     """The problem with the optimised payload and propellant masses (dry masses follow the
     structural ratios, thrusts a given thrust-to-weight ratio)."""
-    if problem.mass_split is None and problem.objective != "max_payload":
+    if problem.mass_split is None and not payload_is_free(problem):
         return problem
     vehicle = problem.vehicle.with_propellant(solution.propellant,
                                               payload_mass=solution.payload_mass)
@@ -225,7 +265,7 @@ def solve(problem: Problem, *, warm_start: Result | None = None,
     iterations = 0
     refinements = 0
     while True:
-        nlp, _ = _cached_nlp(problem, scales, nodes)
+        nlp, _ = NLP_CACHE.get(problem, scales, nodes)
         solution = nlp.solve(problem, guess, warm=guess.multipliers is not None)
         iterations += solution.iterations
         solved_problem = _with_solution_masses(problem, solution)
