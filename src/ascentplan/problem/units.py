@@ -5,10 +5,14 @@ from __future__ import annotations
 
 import math
 import re
+import reprlib
+from functools import cache, lru_cache
 from typing import Any
 
 import numpy as np
 import pint
+
+from ascentplan.problem.unit_grammar import UnitSyntaxError, unit_names
 
 #: the package's unit registry; 't' (tonne) and 'g0' (standard gravity, 9.80665 m s^-2)
 #: are part of pint's default definitions
@@ -42,6 +46,28 @@ _KINDS = (
     ("kg/s", "a mass flow", "150 kg/s"),
     ("", "a plain number", "0.5"),
 )
+
+#: plausible magnitudes (smallest, largest) of each kind of quantity, in the kind's unit
+#: above; zero is always allowed. They keep every later product, quotient and square
+#: of problem data far from float overflow and underflow, and hold with margin the
+#: vehicles, planets and tables of the trade: masses from a gram to ten million tonnes,
+#: forces to ten giganewtons, radii and altitudes to ten billion kilometres,
+#: gravitational parameters up to twenty times the Sun's, table densities down to
+#: interplanetary space.
+PLAUSIBLE = {
+    "kg": (1e-6, 1e10), "m": (1e-6, 1e13), "s": (1e-6, 1e9), "N": (1e-6, 1e10),
+    "Pa": (1e-12, 1e10), "m^2": (1e-9, 1e8), "m/s": (1e-9, 1e8), "m/s^2": (1e-9, 1e6),
+    "rad": (1e-12, 1e3), "rad/s": (1e-15, 1e3), "1/s": (1e-9, 1e6),
+    "Pa*rad": (1e-12, 1e10), "kg/m^3": (1e-30, 1e6), "K": (1e-3, 1e6),
+    "m^3/s^2": (1e-3, 3e21), "Pa*s": (1e-12, 1e6), "kg/s": (1e-9, 1e8), "": (1e-12, 1e12),
+}
+#: magnitudes of a quantity of a kind not listed above, in SI units
+_PLAUSIBLE_OTHER = (1e-30, 1e30)
+#: the longest text a quantity may be written with [characters]: a 30-digit number and
+#: the longest unit
+_MAX_QUANTITY_TEXT = 30 + 64
+#: the longest a value is echoed in a message [characters]
+SHOWN_LENGTH = 80
 
 _NUMBER = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
 
@@ -98,13 +124,44 @@ def _found(units) -> str:
     return text
 
 
+#: a value's text for messages: nested lists and mappings cut short before they are
+#: written out, so a large or self-referring value costs no more than a short one
+_SHORT = reprlib.Repr()
+_SHORT.maxlevel, _SHORT.maxlist, _SHORT.maxtuple, _SHORT.maxdict = 4, 12, 12, 12
+_SHORT.maxset, _SHORT.maxfrozenset, _SHORT.maxstring = 12, 12, SHOWN_LENGTH
+_SHORT.maxlong, _SHORT.maxother = SHOWN_LENGTH, SHOWN_LENGTH
+#: whole numbers beyond this many bits are described, not written out (Python refuses
+#: to write integers of more than 4300 digits)
+_WRITTEN_INT_BITS = 1024
+
+
+def printable(text: str) -> str:
+    """``text`` with every non-printing character (control codes, terminal escapes, lone
+    surrogates, line breaks) written as a Python escape, so that echoing it is safe."""
+    if text.isprintable():
+        return text
+    return "".join(c if c.isprintable() else repr(c)[1:-1] for c in text)
+
+
 def show(value: Any) -> str:
-    """A value as it was written in the file, for messages."""
+    """A value as it was written in the file, for messages: at most
+    :data:`SHOWN_LENGTH` characters, cut with an ellipsis, and printable."""
     if isinstance(value, str):
-        return repr(value)
-    if value is None:
+        text = repr(value[:SHOWN_LENGTH + 1])
+    elif value is None:
         return "nothing"
-    return str(value)
+    elif isinstance(value, bool):
+        return str(value)
+    elif isinstance(value, int) and value.bit_length() > _WRITTEN_INT_BITS:
+        return f"a whole number of about {int(value.bit_length() * math.log10(2))} digits"
+    elif isinstance(value, (int, float)):
+        text = str(value)
+    else:
+        text = _SHORT.repr(value)
+    text = printable(text)
+    if len(text) > SHOWN_LENGTH:
+        text = text[:SHOWN_LENGTH - 3] + "..."
+    return text
 
 
 def expected_text(unit: str) -> str:
@@ -115,32 +172,65 @@ def expected_text(unit: str) -> str:
     return f"{description} (e.g. '{example}')"
 
 
+@lru_cache(maxsize=4096)
+def _is_unit_name(name: str) -> bool:
+    """Whether the registry knows one unit name (with or without a prefix)."""
+    try:
+        ureg.parse_units(name)
+    except Exception:  # pint's parser raises many kinds; any of them means "unknown"
+        return False
+    return True
+
+
+@lru_cache(maxsize=1024)
+def _parse_unit(text: str):
+    """A unit text, checked against the grammar first, as a pint unit.
+
+    Raises
+    ------
+    UnitSyntaxError
+        Why the text is not a unit, in words.
+    """
+    unit_names(text, _is_unit_name)
+    try:
+        return ureg.parse_units(text)
+    except Exception:  # the grammar admits only what pint reads; this is the last guard
+        raise UnitSyntaxError("not a unit pint can read") from None
+
+
 def _parse_string(text: str, unit: str, key_path: str) -> float:
+    if len(text) > _MAX_QUANTITY_TEXT:
+        raise UnitError(f"{key_path}: cannot read {show(text)} as a number with a unit "
+                        f"(longer than {_MAX_QUANTITY_TEXT} characters); expected "
+                        f"{expected_text(unit)}")
     match = _NUMBER.match(text)
     if match is None:
-        raise UnitError(f"{key_path}: cannot read {text!r} as a number with a unit; "
+        raise UnitError(f"{key_path}: cannot read {show(text)} as a number with a unit; "
                         f"expected {expected_text(unit)}")
     number, unit_text = float(match.group(1)), match.group(2)
+    if not math.isfinite(number):
+        raise UnitError(f"{key_path}: expected a finite value, got {show(text)}")
     if not unit_text:
         # a bare number in quotes (YAML reads 1e5 as a string) counts like a plain number
         return number
     try:
-        given = ureg.parse_units(unit_text)
-    except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError,
-            AttributeError, ValueError, TypeError, SyntaxError) as exc:
-        detail = exc.unit_names if isinstance(exc, pint.errors.UndefinedUnitError) else None
-        if isinstance(detail, (list, tuple)):
-            detail = ", ".join(map(str, detail))
-        hint = f" (unknown unit {detail!r})" if detail else ""
-        raise UnitError(f"{key_path}: cannot read the unit of {text!r}{hint}; "
+        given = _parse_unit(unit_text)
+    except UnitSyntaxError as exc:
+        reason = str(exc)
+        hint = f" ({reason})" if reason.startswith("unknown unit") else f": {reason}"
+        raise UnitError(f"{key_path}: cannot read the unit of {show(text)}{hint}; "
                         f"expected {expected_text(unit)}") from None
     if _signature(given) != _signature(unit):
         hint = ""
         if _signature(unit) == _signature("m/s^2") and _signature(given) == _signature("kg"):
             hint = " ('g' is the gram; write 'g0' for standard gravity)"
-        raise UnitError(f"{key_path}: expected {expected_text(unit)}, got {text!r} "
+        raise UnitError(f"{key_path}: expected {expected_text(unit)}, got {show(text)} "
                         f"({_found(given)}){hint}")
-    return float(Quantity(number, given).to(unit).magnitude)
+    try:
+        return float(Quantity(number, given).to(unit).magnitude)
+    except (ArithmeticError, ValueError):
+        # a float product past the largest float; the range check words it
+        return math.inf if number > 0 else -math.inf
 
 
 def to_si(value: Any, unit: str, key_path: str) -> float:
@@ -170,21 +260,78 @@ def to_si(value: Any, unit: str, key_path: str) -> float:
     """
     if isinstance(value, bool):
         raise UnitError(f"{key_path}: expected {expected_text(unit)}, got {value} (a yes/no value)")
+    if isinstance(value, float) and not math.isfinite(value):
+        raise UnitError(f"{key_path}: expected a finite value, got {show(value)}")
     if isinstance(value, (int, float)):
-        result = float(value)
+        result = _plain_float(value)
     elif isinstance(value, str):
         result = _parse_string(value, unit, key_path)
     elif value is None:
         raise UnitError(f"{key_path}: no value given; expected {expected_text(unit)}")
     elif isinstance(value, (list, tuple)):
-        raise UnitError(f"{key_path}: expected {expected_text(unit)}, got a list {value!r}")
+        raise UnitError(f"{key_path}: expected {expected_text(unit)}, got a list {show(value)}")
     elif isinstance(value, dict):
-        raise UnitError(f"{key_path}: expected {expected_text(unit)}, got a mapping {value!r}")
+        raise UnitError(f"{key_path}: expected {expected_text(unit)}, got a mapping "
+                        f"{show(value)}")
     else:
-        raise UnitError(f"{key_path}: expected {expected_text(unit)}, got {value!r}")
-    if not math.isfinite(result):
-        raise UnitError(f"{key_path}: expected a finite value, got {show(value)}")
+        raise UnitError(f"{key_path}: expected {expected_text(unit)}, got {show(value)}")
+    check_plausible(result, unit, key_path, value)
     return result
+
+
+def _plain_float(value: int | float) -> float:
+    """A plain number as a float; a whole number beyond the float range is infinite
+    (the range check then refuses it by name)."""
+    try:
+        return float(value)
+    except OverflowError:
+        return math.inf if value > 0 else -math.inf
+
+
+@cache
+def plausible_range(unit: str) -> tuple[float, float, str, str]:
+    """Plausible magnitudes of a quantity in ``unit``.
+
+    Parameters
+    ----------
+    unit : str
+        A pint unit expression, "" for a plain number.
+
+    Returns
+    -------
+    smallest, largest : float
+        Magnitudes in ``unit`` (zero is allowed besides).
+    kind, kind_unit : str
+        What the quantity is ("a force") and the unit the range is stated in ("N").
+    """
+    sig = _signature(unit)
+    for kind_unit, description, _ in _KINDS:
+        if _signature(kind_unit) == sig:
+            low, high = PLAUSIBLE[kind_unit]
+            factor = float(Quantity(1.0, unit).to(kind_unit).magnitude) if kind_unit else 1.0
+            return low / factor, high / factor, description, kind_unit
+    low, high = _PLAUSIBLE_OTHER
+    factor = float(ureg.get_root_units(unit)[0])
+    return low / factor, high / factor, f"a quantity in {unit}", str(ureg.get_root_units(unit)[1])
+
+
+def check_plausible(result: float, unit: str, key_path: str, raw: Any) -> None:
+    """Refuse a value (in ``unit``) outside :data:`PLAUSIBLE`, naming the range.
+
+    Raises
+    ------
+    UnitError
+        Starting with ``key_path``.
+    """
+    low, high, kind, kind_unit = plausible_range(unit)
+    size = abs(result)
+    if result == 0.0 or low <= size <= high:
+        return
+    kind_low, kind_high = PLAUSIBLE.get(kind_unit, _PLAUSIBLE_OTHER)
+    shown_unit = f" {kind_unit}" if kind_unit else ""
+    raise UnitError(f"{key_path}: {show(raw)} is outside the plausible range of {kind}: "
+                    f"0 or a magnitude from {kind_low:g}{shown_unit} to {kind_high:g}"
+                    f"{shown_unit}")
 
 
 def list_to_si(value: Any, unit: str, key_path: str) -> tuple[float, ...]:
@@ -229,17 +376,14 @@ def list_to_si(value: Any, unit: str, key_path: str) -> tuple[float, ...]:
                 f"{key_path}.values[{i}]: expected a plain number (the unit is given once), "
                 f"got {show(items[i])}" for i in bad))
         try:
-            given = ureg.parse_units(list_unit) if list_unit else ureg.dimensionless
-        except Exception:
-            raise UnitError(f"{key_path}.unit: cannot read the unit {list_unit!r}; "
-                            f"expected {expected_text(unit)}") from None
+            given = _parse_unit(list_unit) if list_unit else ureg.dimensionless
+        except UnitSyntaxError as exc:
+            raise UnitError(f"{key_path}.unit: cannot read the unit {show(list_unit)} "
+                            f"({exc}); expected {expected_text(unit)}") from None
         if _signature(given) != _signature(unit):
             raise UnitError(f"{key_path}.unit: expected {expected_text(unit)}, got "
-                            f"{list_unit!r} ({_found(given)})")
-        converted = Quantity(np.asarray(items, dtype=float), given).to(unit).magnitude
-        if not np.all(np.isfinite(converted)):
-            raise UnitError(f"{key_path}.values: expected finite values, got {items!r}")
-        return tuple(float(v) for v in converted)
+                            f"{show(list_unit)} ({_found(given)})")
+        return _unit_list_to_si(items, given, unit, f"{key_path}.values")
     if not isinstance(value, list):
         raise UnitError(f"{key_path}: expected a list of values, e.g. "
                         f"['{describe_unit(unit)[1]}', ...] or {{unit: ..., values: [...]}}, "
@@ -255,6 +399,25 @@ def list_to_si(value: Any, unit: str, key_path: str) -> tuple[float, ...]:
     if errors:
         raise UnitError("\n".join(errors))
     return tuple(out)
+
+
+def _unit_list_to_si(items: list, given, unit: str, key_path: str) -> tuple[float, ...]:
+    """Plain numbers in the unit ``given`` converted to ``unit``, each finite and plausible."""
+    if any(isinstance(raw, float) and not math.isfinite(raw) for raw in items):
+        raise UnitError(f"{key_path}: expected finite values, got {show(items)}")
+    # whole numbers past the float range become infinite here and the range check names them
+    numbers = np.asarray([_plain_float(v) for v in items], dtype=float)
+    with np.errstate(over="ignore", invalid="ignore"):
+        converted = Quantity(numbers, given).to(unit).magnitude
+    errors = []
+    for i, v in enumerate(converted):
+        try:
+            check_plausible(float(v), unit, f"{key_path}[{i}]", items[i])
+        except UnitError as exc:
+            errors.append(str(exc))
+    if errors:
+        raise UnitError("\n".join(errors))
+    return tuple(float(v) for v in converted)
 
 
 def from_si(value: float, si_unit: str, unit: str) -> float:
