@@ -10,14 +10,13 @@ checks them against each other. This module is the front: a file or a dict in, a
 
 from __future__ import annotations
 
-from pathlib import Path
-
 import yaml
 
 from ascentplan.models.dynamics import DYNAMICS, dynamics_kind
 from ascentplan.problem.checks import _cross_checks, _Parts, liftoff_thrust, site_gravity
 from ascentplan.problem.model import OBJECTIVE_SPECS, Problem
-from ascentplan.problem.reader import _kind_of, _Reader, _StrictLoader
+from ascentplan.problem.reader import InputLimitError, _kind_of, _Reader, _StrictLoader
+from ascentplan.problem.screen import MAX_FILE_BYTES, name_fault, screen, tidy_messages
 from ascentplan.problem.sections import (
     _read_aerodynamics,
     _read_atmosphere,
@@ -43,13 +42,14 @@ class ProblemError(ValueError):
     Attributes
     ----------
     messages : list of str
-        Every problem found, one sentence each, starting with the key path.
+        Every problem found, one sentence each, starting with the key path; printable
+        (control characters escaped) and of bounded length and number.
     source : str or None
         The file the messages are about, when there is one.
     """
 
     def __init__(self, messages, source: str | None = None):
-        self.messages = list(messages)
+        self.messages = tidy_messages(messages)
         self.source = source
         super().__init__("\n".join(self.messages))
 
@@ -76,24 +76,17 @@ def read_problem_file(path) -> dict:
     Raises
     ------
     ProblemError
-        When the file cannot be read, is not valid YAML (the message gives the line), has
-        duplicate keys, or is not a mapping at the top.
+        When the file cannot be read, is larger than :data:`MAX_FILE_BYTES`, is not valid
+        YAML (the message gives the line), has duplicate keys, nests too deep, uses too
+        many aliases or expands to too many values (see
+        :mod:`~ascentplan.problem.screen`), or is not a mapping at the top.
     """
     source = str(path)
-    try:
-        text = Path(path).read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise ProblemError(["no such problem file"], source) from None
-    except IsADirectoryError:
-        raise ProblemError(["is a folder, not a problem file"], source) from None
-    except UnicodeDecodeError as exc:
-        raise ProblemError([f"not a text file (UTF-8 decoding failed at byte {exc.start})"],
-                           source) from None
-    except OSError as exc:
-        raise ProblemError([f"cannot read the problem file: {exc.strerror or exc}"],
-                           source) from None
+    text = _read_text(path, source)
     try:
         data = yaml.load(text, Loader=_StrictLoader)
+    except InputLimitError as exc:
+        raise ProblemError([f"{exc.message} (line {exc.mark.line + 1})"], source) from None
     except yaml.MarkedYAMLError as exc:
         mark = exc.problem_mark or exc.context_mark
         where = f"line {mark.line + 1}, column {mark.column + 1}: " if mark else ""
@@ -108,6 +101,32 @@ def read_problem_file(path) -> dict:
         raise ProblemError([f"the top level must be a mapping with name:, vehicle:, ..., "
                             f"got {_kind_of(data)}"], source)
     return data
+
+
+def _read_text(path, source: str) -> str:
+    """The text of a problem file of at most :data:`MAX_FILE_BYTES`, refused unread
+    when it is larger."""
+    try:
+        with open(path, "rb") as stream:
+            raw = stream.read(MAX_FILE_BYTES + 1)
+    except FileNotFoundError:
+        raise ProblemError(["no such problem file"], source) from None
+    except IsADirectoryError:
+        raise ProblemError(["is a folder, not a problem file"], source) from None
+    except OSError as exc:
+        raise ProblemError([f"cannot read the problem file: {exc.strerror or exc}"],
+                           source) from None
+    if len(raw) > MAX_FILE_BYTES:
+        raise ProblemError([f"the file is larger than {MAX_FILE_BYTES} bytes (1 MiB), the "
+                            f"most a problem file may be; the examples are about 3 kB"],
+                           source)
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise ProblemError([f"not a text file (UTF-8 decoding failed at byte {exc.start})"],
+                           source) from None
+    # as text mode reads it: line ends as written by any system become "\n"
+    return text.replace("\r\n", "\n").replace("\r", "\n")
 
 
 def load_problem(source) -> Problem:
@@ -156,6 +175,11 @@ def problem_from_dict(data: dict, source_path: str | None = None) -> Problem:
     if not isinstance(data, dict):
         raise ProblemError([f"a problem must be a mapping with name:, vehicle:, ..., "
                             f"got {_kind_of(data)}"], source_path)
+    # sizes, nesting and characters first, so that no value is read from a problem
+    # that would cost more than a normal one
+    faults = screen(data)
+    if faults:
+        raise ProblemError(faults, source_path)
     r = _Reader()
     r.keys(data, "", _TOP_KEYS)
 
@@ -197,8 +221,9 @@ def _read_name(r: _Reader, data: dict) -> str | None:
     """The problem's name, which names its results folder too."""
     name = r.text(data, "name", "", required=True)
     if name is not None:
-        stripped = name.strip()
-        if not stripped or stripped in (".", "..") or any(c in name for c in "/\\"):
-            r.error("name", f"must be a plain name usable as a folder name, got {show(name)}")
+        fault = name_fault(name)
+        if fault:
+            r.error("name", f"must be usable as a folder name on every common file system: "
+                            f"{fault}; got {show(name)}")
             return None
     return name

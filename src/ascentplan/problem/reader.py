@@ -13,6 +13,16 @@ from typing import Any
 
 import yaml
 
+from ascentplan.problem.screen import (
+    MAX_ALIASES,
+    MAX_DEPTH,
+    MAX_NODES,
+    MAX_NUMBER_DIGITS,
+    at,
+    too_deep,
+    too_many_aliases,
+    too_many_values,
+)
 from ascentplan.problem.units import UnitError, describe_unit, expected_text, from_si, show, to_si
 
 
@@ -208,7 +218,7 @@ class _Reader:
             self.error(p, f"expected a whole number >= {minimum}, got {show(raw)}")
             return None
         if raw < minimum:
-            self.error(p, f"must be >= {minimum}, got {raw}")
+            self.error(p, f"must be >= {minimum}, got {show(raw)}")
             return None
         return raw
 
@@ -241,8 +251,96 @@ class _Reader:
 
 
 # -- YAML -------------------------------------------------------------------------
+class InputLimitError(yaml.YAMLError):
+    """A YAML document past an input limit, found while it was being built.
+
+    Attributes
+    ----------
+    message : str
+        Starting with the key path of the node that went past the limit.
+    mark : yaml.Mark
+        Where in the file.
+    """
+
+    def __init__(self, message: str, mark):
+        super().__init__(message)
+        self.message, self.mark = message, mark
+
+
 class _StrictLoader(yaml.SafeLoader):
-    """Safe YAML loader that refuses duplicate keys (plain YAML keeps the last silently)."""
+    """Safe YAML loader that refuses duplicate keys (plain YAML keeps the last silently)
+    and counts nesting, aliases and values while composing, so that a deep nest or an
+    alias bomb is refused before a single value is built from it."""
+
+    def __init__(self, stream):
+        super().__init__(stream)
+        self._labels: list[str] = []
+        self._values = 0
+        self._aliases = 0
+        #: values an anchored node holds with its aliases expanded, by id of the node
+        self._expanded: dict[int, int] = {}
+
+    def _path(self) -> str:
+        path = ""
+        for label in self._labels:
+            if label.startswith("["):
+                path += label
+            elif label:
+                path = f"{path}.{label}" if path else label
+        return path
+
+    def _refuse(self, message: str, mark):
+        raise InputLimitError(message, mark)
+
+    def compose_node(self, parent, index):
+        event = self.peek_event()
+        self._labels.append(_label(index))
+        try:
+            if isinstance(event, yaml.AliasEvent):
+                node = super().compose_node(parent, index)
+                self._aliases += 1
+                if self._aliases > MAX_ALIASES:
+                    self._refuse(too_many_aliases(self._path()), event.start_mark)
+                size = self._expanded.get(id(node))
+                if size is None:
+                    self._refuse(at(self._path(), f"the alias *{event.anchor} refers to a "
+                                                  f"node that holds it"), event.start_mark)
+                self._count(size, event.start_mark)
+                return node
+            if len(self._labels) > MAX_DEPTH:
+                self._refuse(too_deep(self._path()), event.start_mark)
+            before = self._values
+            self._count(1, event.start_mark)
+            node = super().compose_node(parent, index)
+            if event.anchor is not None:
+                self._expanded[id(node)] = self._values - before
+            return node
+        finally:
+            self._labels.pop()
+
+    def _count(self, values: int, mark) -> None:
+        self._values += values
+        if self._values > MAX_NODES:
+            self._refuse(too_many_values(self._path()), mark)
+
+
+def _label(index) -> str:
+    """How a node adds to the key path: ``[i]`` in a list, its key in a mapping."""
+    if isinstance(index, int):
+        return f"[{index}]"
+    if isinstance(index, yaml.ScalarNode):
+        return index.value if len(index.value) <= 80 else show(index.value)
+    return ""
+
+
+def _construct_int(loader, node):
+    # Python refuses to read whole numbers of more than 4300 digits with a ValueError
+    # that YAML does not report; refuse them here with the place in the file
+    if len(node.value) > MAX_NUMBER_DIGITS:
+        raise yaml.constructor.ConstructorError(
+            None, None, f"a number written with {len(node.value)} characters; at most "
+                        f"{MAX_NUMBER_DIGITS}", node.start_mark)
+    return yaml.constructor.SafeConstructor.construct_yaml_int(loader, node)
 
 
 def _construct_mapping(loader, node, deep=False):
@@ -254,16 +352,16 @@ def _construct_mapping(loader, node, deep=False):
             duplicate = key in mapping
         except TypeError:
             raise yaml.constructor.ConstructorError(
-                None, None, f"a key must be a name, got {key!r}", key_node.start_mark
+                None, None, f"a key must be a name, got {show(key)}", key_node.start_mark
             ) from None
         if duplicate:
             text = getattr(key_node, "value", key)
             if text != written[key]:
                 # YAML 1.1 reads yes/no/on/off as booleans, which equal 1 and 0
-                problem = (f"key {text!r} reads as {key!r}, the same as the earlier key "
-                           f"{written[key]!r}")
+                problem = (f"key {show(text)} reads as {show(key)}, the same as the earlier "
+                           f"key {show(written[key])}")
             else:
-                problem = f"duplicate key {key!r}"
+                problem = f"duplicate key {show(key)}"
             raise yaml.constructor.ConstructorError(None, None, problem, key_node.start_mark)
         mapping[key] = loader.construct_object(value_node, deep=True)
         written[key] = getattr(key_node, "value", key)
@@ -272,3 +370,4 @@ def _construct_mapping(loader, node, deep=False):
 
 _StrictLoader.add_constructor(yaml.resolver.BaseResolver.DEFAULT_MAPPING_TAG,
                               _construct_mapping)
+_StrictLoader.add_constructor("tag:yaml.org,2002:int", _construct_int)
