@@ -50,6 +50,20 @@ _SPLIT_KEYS = ("hold", "liftoff_mass", "map_points")
 _SPLIT_HOLDS = ("liftoff_mass", "payload")
 _SCHEDULE_KEYS = ("time", "throttle", "pitch")
 _HALF_PI = 0.5 * math.pi
+#: the most collocation nodes a phase may start with, and after all its refinements
+#: (each refinement turns n nodes into 2n - 1)
+MAX_NODES_PER_PHASE = 2_000
+MAX_REFINED_NODES = 10_000
+MAX_REFINEMENTS = 6
+#: solver memory per collocation node of a phase [bytes]: the peak resident memory of a
+#: two-stage planar solve grew by 39 MB from 40 to 320 nodes per phase (2.25 phases'
+#: worth of nodes), about 62 kB per node
+BYTES_PER_NODE = 64_000
+#: the most points per axis of a stage-mass map; a three-stage map solves points^2 times
+MAX_MAP_POINTS = 25
+#: wall time of one map point [s]: a cold solve of a two-stage planar problem at 40
+#: nodes per phase took 2.1 s; the warm-started re-solves of a map take less
+_SECONDS_PER_MAP_POINT = 2.0
 
 
 # -- what a dynamics kind can use -------------------------------------------------------
@@ -382,9 +396,42 @@ def _read_mesh(r: _Reader, data: dict):
                                                "", default=defaults.limit_tolerance_fraction,
                                                gt=0.0, lt=1.0),
     }
+    _check_mesh_size(r, values["nodes_per_phase"], values["max_refinements"])
     if len(r.messages) > before:
         return None
     return Mesh(**values)
+
+
+def _memory_text(nodes: int) -> str:
+    """The solver memory ``nodes`` collocation nodes of one phase need, in words."""
+    if nodes > 10**12:
+        return "far more solver memory than any computer has"
+    size = nodes * BYTES_PER_NODE
+    for unit, scale in (("TB", 1e12), ("GB", 1e9), ("MB", 1e6)):
+        if size >= scale:
+            return f"about {size / scale:.3g} {unit} of solver memory per phase"
+    return f"about {size / 1e3:.3g} kB of solver memory per phase"
+
+
+def _check_mesh_size(r: _Reader, nodes: int | None, refinements: int | None) -> None:
+    """A mesh the solver can hold: nodes per phase, refinements and refined nodes capped."""
+    if nodes is not None and nodes > MAX_NODES_PER_PHASE:
+        r.error("mesh.nodes_per_phase", f"must be <= {MAX_NODES_PER_PHASE}, got {show(nodes)} "
+                                        f"(that mesh would need {_memory_text(nodes)})")
+        return
+    if refinements is not None and refinements > MAX_REFINEMENTS:
+        r.error("mesh.max_refinements", f"must be <= {MAX_REFINEMENTS}, got {show(refinements)} "
+                                        f"(each refinement doubles the nodes of a phase)")
+        return
+    if nodes is None or refinements is None:
+        return
+    refined = (nodes - 1) * 2 ** refinements + 1
+    if refined > MAX_REFINED_NODES:
+        r.error("mesh.max_refinements",
+                f"{refinements} refinements of {nodes} nodes per phase can reach {refined} "
+                f"nodes per phase, which would need {_memory_text(refined)}; at most "
+                f"{MAX_REFINED_NODES} after refinement (fewer nodes or refinements), got "
+                f"{refinements}")
 
 
 def _read_mass_split(r: _Reader, data: dict):
@@ -398,7 +445,13 @@ def _read_mass_split(r: _Reader, data: dict):
     hold = r.choice(section, "hold", "mass_split", _SPLIT_HOLDS, "liftoff_mass", "hold")
     liftoff = r.quantity(section, "liftoff_mass", "mass_split", "kg", gt=0.0)
     map_points = r.integer(section, "map_points", "mass_split", 0, 0)
-    if map_points not in (0, None) and (map_points < 3 or hold != "liftoff_mass"):
+    if map_points is not None and map_points > MAX_MAP_POINTS:
+        r.error("mass_split.map_points",
+                f"must be <= {MAX_MAP_POINTS} points per axis, got {show(map_points)} (a map "
+                f"re-solves the problem at every point, {show(map_points)} times for two "
+                f"stages and the square of that for three, about "
+                f"{_SECONDS_PER_MAP_POINT:g} s each)")
+    elif map_points not in (0, None) and (map_points < 3 or hold != "liftoff_mass"):
         r.error("mass_split.map_points", "must be 0 (no map) or at least 3, and needs "
                                          f"hold: liftoff_mass; got {show(map_points)}")
     if hold == "payload" and section.get("liftoff_mass") is not None:
