@@ -304,7 +304,7 @@ class Problem:
     description: str = ""
     source_path: str | None = None
 
-    def with_limits(self, **changes) -> "Problem":
+    def with_limits(self, **changes) -> Problem:
         return replace(self, limits=replace(self.limits, **changes))
 
 

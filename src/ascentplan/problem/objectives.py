@@ -8,8 +8,9 @@ one :class:`ObjectiveSpec` here plus its test.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Any, Callable
+from typing import Any
 
 
 @dataclass(frozen=True)
