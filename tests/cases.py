@@ -4,12 +4,20 @@ from __future__ import annotations
 
 from dataclasses import replace
 
+from ascentplan.constants import G0
 from ascentplan.models.aero import ConstantDrag
 from ascentplan.models.atmosphere import ExponentialAtmosphere, Vacuum
-from ascentplan.constants import G0
 from ascentplan.models.gravity import ConstantGravity, InverseSquareGravity
-from ascentplan.problem.model import (Aerodynamics, Limits, Mesh, Planet, Problem, Stage,
-                                Target, Vehicle)
+from ascentplan.problem.model import (
+    Aerodynamics,
+    Limits,
+    Mesh,
+    Planet,
+    Problem,
+    Stage,
+    Target,
+    Vehicle,
+)
 
 
 def flat_vacuum_problem(scheme="hermite_simpson", nodes=40, target_altitude=30e3,

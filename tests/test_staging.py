@@ -9,8 +9,13 @@ from scipy.optimize import minimize
 
 from ascentplan.constants import G0
 from ascentplan.problem.model import Stage, Vehicle
-from ascentplan.staging.rocket_equation import (StageSplit, StagingError, format_split, optimal_split,
-                                split_for_vehicle)
+from ascentplan.staging.rocket_equation import (
+    StageSplit,
+    StagingError,
+    format_split,
+    optimal_split,
+    split_for_vehicle,
+)
 
 # Plausible invented three-stage vehicle: kerosene first stage, better upper stages.
 EXHAUST = (2900.0, 3300.0, 4400.0)  # [m s^-1]

@@ -27,7 +27,6 @@ import time
 from dataclasses import replace
 
 import numpy as np
-
 from _common import finish, load_average, machine_info, median, problem_path
 
 SEGMENTS = 20

@@ -21,7 +21,7 @@ import argparse
 import sys
 import time
 
-from _common import (finish, emit_point, load_average, machine_info, median, problem_path, run_point)
+from _common import emit_point, finish, load_average, machine_info, median, problem_path, run_point
 
 EXAMPLES = ("sounding_rocket", "small_launcher", "medium_launcher", "goddard")
 QUICK_EXAMPLES = ("small_launcher", "goddard")
@@ -39,8 +39,8 @@ def _peak_rss_mb() -> float:
 
 def _cold_point(name: str) -> dict:
     t0 = time.perf_counter()
-    from ascentplan.problem.loader import load_problem
     from ascentplan.pipeline import OBJECTIVE_UNITS, clear_cache, solve
+    from ascentplan.problem.loader import load_problem
     import_s = time.perf_counter() - t0
 
     t0 = time.perf_counter()
@@ -66,12 +66,11 @@ def _cold_point(name: str) -> dict:
 
 def _parts_point(name: str) -> dict:
     t0 = time.perf_counter()
-    from ascentplan.problem.loader import load_problem
     # the replay and the mass update are the pipeline's own steps, timed here one by one
-    from ascentplan.pipeline import (_replay, _with_solution_masses, clear_cache,
-                                     first_guess, solve)
-    from ascentplan.transcription.nlp import AscentNLP
+    from ascentplan.pipeline import _replay, _with_solution_masses, clear_cache, first_guess, solve
+    from ascentplan.problem.loader import load_problem
     from ascentplan.replay.verify import verify
+    from ascentplan.transcription.nlp import AscentNLP
     import_s = time.perf_counter() - t0
 
     problem = load_problem(problem_path(name))

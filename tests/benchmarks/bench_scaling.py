@@ -22,9 +22,17 @@ import sys
 import time
 
 import numpy as np
-
-from _common import (finish, RESULTS, QUICK_RESULTS, emit_point, load_average, machine_info,
-                     problem_path, run_point, write_result)
+from _common import (
+    QUICK_RESULTS,
+    RESULTS,
+    emit_point,
+    finish,
+    load_average,
+    machine_info,
+    problem_path,
+    run_point,
+    write_result,
+)
 
 PROBLEMS = ("goddard", "small_launcher")
 SYMBOLIC = ("MX", "SX")
@@ -51,11 +59,11 @@ def _rss_mb() -> float:
 def _timed_point(name: str, symbolic: str, nodes: int) -> dict:
     from dataclasses import replace
 
-    from ascentplan.problem.loader import load_problem
-    from ascentplan.transcription.nlp import AscentNLP
     # the replay and the mass update are the pipeline's own steps, timed here one by one
     from ascentplan.pipeline import _replay, _with_solution_masses, first_guess
+    from ascentplan.problem.loader import load_problem
     from ascentplan.replay.verify import verify
+    from ascentplan.transcription.nlp import AscentNLP
 
     problem = load_problem(problem_path(name))
     problem = replace(problem, mesh=replace(problem.mesh, nodes_per_phase=nodes,
@@ -92,9 +100,9 @@ def _traced_point(name: str, symbolic: str, nodes: int) -> dict:
     import tracemalloc
     from dataclasses import replace
 
+    from ascentplan.pipeline import first_guess
     from ascentplan.problem.loader import load_problem
     from ascentplan.transcription.nlp import AscentNLP
-    from ascentplan.pipeline import first_guess
 
     problem = load_problem(problem_path(name))
     problem = replace(problem, mesh=replace(problem.mesh, nodes_per_phase=nodes,

@@ -22,8 +22,8 @@ sys.path.insert(0, str(HERE))
 
 from _common import machine_info, write_readme  # noqa: E402
 
-from ascentplan.problem.loader import load_problem  # noqa: E402
 from ascentplan.pipeline import clear_cache, solve  # noqa: E402
+from ascentplan.problem.loader import load_problem  # noqa: E402
 from ascentplan.staging.coupled import solve_with_split_comparison  # noqa: E402
 
 CASES = ("small_launcher_split.yaml", "medium_launcher_split.yaml")
