@@ -291,8 +291,23 @@ def _split_section(data):
     return lines + [""]
 
 
+def _memory_section(data):
+    lines = ["## Memory over many solves in one process", "",
+             f"Regenerate: `{data['command']}`", ""] + _machine_lines(data)
+    lines += [f"{data['solves']} solves of the {data['problem']} example in one interpreter, "
+              f"the NLP cache cleared every {data['rebuild_every']} solves; resident set size "
+              "sampled after every solve.", ""]
+    lines += _table(["solves", "RSS after warm-up [MB]", "RSS at the end [MB]",
+                     "max RSS [MB]", "growth", "wall time [s]"],
+                    [[data["solves"], _f(data["rss_after_warmup_mb"]), _f(data["rss_end_mb"]),
+                      _f(data["rss_max_mb"]), f"{data['growth_fraction']:+.1%}",
+                      _f(data["wall_time_s"])]])
+    return lines + [""] + _goal_lines(data.get("goals", []))
+
+
 _SECTIONS = (("examples.json", _examples_section), ("scaling.json", _scaling_section),
-             ("baseline.json", _baseline_section), ("split.json", _split_section))
+             ("baseline.json", _baseline_section), ("split.json", _split_section),
+             ("memory.json", _memory_section))
 
 
 def finish(name: str, data: dict, quick: bool) -> int:
