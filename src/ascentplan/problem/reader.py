@@ -337,9 +337,8 @@ def _construct_int(loader, node):
     # Python refuses to read whole numbers of more than 4300 digits with a ValueError
     # that YAML does not report; refuse them here with the place in the file
     if len(node.value) > MAX_NUMBER_DIGITS:
-        raise yaml.constructor.ConstructorError(
-            None, None, f"a number written with {len(node.value)} characters; at most "
-                        f"{MAX_NUMBER_DIGITS}", node.start_mark)
+        raise InputLimitError(f"a number written with {len(node.value)} characters; at most "
+                              f"{MAX_NUMBER_DIGITS}", node.start_mark)
     return yaml.constructor.SafeConstructor.construct_yaml_int(loader, node)
 
 
