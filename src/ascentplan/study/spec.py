@@ -17,7 +17,9 @@ import numpy as np
 from ascentplan.problem.limits import LIMITS
 from ascentplan.problem.units import UnitError, show, to_si
 from ascentplan.study.document import (
+    changed_problem,
     check_keys,
+    checked_problem,
     file_number,
     holds_whole_number,
     is_number,
@@ -26,7 +28,7 @@ from ascentplan.study.document import (
 )
 from ascentplan.study.errors import StudyError
 
-__all__ = ["DISPERSION_KINDS", "Study", "dispersion", "limit_sweep"]
+__all__ = ["DISPERSION_KINDS", "Study", "check_points", "dispersion", "limit_sweep"]
 
 DISPERSION_KINDS = ("normal", "uniform")
 
@@ -91,6 +93,80 @@ class Study:
         return list(keys)
 
 
+#: refused points told in full; the others are counted
+_REFUSALS_TOLD = 5
+
+
+def _check_point_keys(study: Study, document: dict) -> None:
+    """StudyError for the first point with a key the problem file has no number at."""
+    refused = {}
+    for key in study.change_keys:
+        try:
+            checked_problem(document, [key], study.problem_path)
+        except StudyError as exc:
+            refused[key] = str(exc)
+    for i, point in enumerate(study.points):
+        for key in point:
+            if key in refused:
+                raise StudyError("\n".join(f"points[{i}]: {line}"
+                                           for line in refused[key].split("\n")))
+
+
+def _refusal(document: dict, problem, study: Study, i: int) -> list:
+    """The loader's messages about point ``i`` (empty when it reads the point)."""
+    point = study.points[i]
+    try:
+        changed_problem(document, problem, point, study.problem_path)
+    except StudyError as exc:
+        messages = str(exc).split("\n")
+    except Exception as exc:  # noqa: BLE001 - the unit parser's own errors: a message
+        # naming the point, not a traceback
+        messages = [f"cannot read the point's values ({type(exc).__name__}: {exc})"]
+    else:
+        return []
+    told = ", ".join(f"{key} = {value!r}" for key, value in point.items())
+    return [f"points[{i}] ({told}): {message}" for message in messages]
+
+
+def check_points(study: Study, document: dict, problem) -> None:
+    """Raise :class:`StudyError` unless the problem loader reads every point.
+
+    Each point's changes are written into the problem document and read back by the
+    loader, exactly as a worker will, so that a value the loader refuses stops the study
+    before any worker starts or any file is written.
+
+    Parameters
+    ----------
+    study : Study
+    document : dict
+        The problem document of ``study.problem_path``.
+    problem : Problem
+        What the loader reads from the unchanged document.
+
+    Raises
+    ------
+    StudyError
+        For a key the problem file has no number at, or with one line per loader message
+        for each refused point (the first few points, then how many more), each naming
+        the point, its keys and values, e.g. ``points[1] (limits.max_dynamic_pressure =
+        -5000.0): limits.max_dynamic_pressure: must be > 0 kPa, got -5000.0``.
+    """
+    _check_point_keys(study, document)
+    lines: list = []
+    refused = 0
+    for i in range(len(study.points)):
+        told = _refusal(document, problem, study, i)
+        if told:
+            refused += 1
+            if refused <= _REFUSALS_TOLD:
+                lines += told
+    if refused > _REFUSALS_TOLD:
+        lines.append(f"... and {refused - _REFUSALS_TOLD} more points the problem loader "
+                     f"refuses")
+    if lines:
+        raise StudyError("\n".join(lines))
+
+
 def _closest_limit(name: Any) -> str:
     close = difflib.get_close_matches(str(name), list(LIMITS), n=1)
     return f"; did you mean '{close[0]}'?" if close else ""
@@ -126,6 +202,10 @@ def limit_sweep(problem_path, limit_name: str, values) -> Study:
             si.append(to_si(value, unit, f"values[{i}]"))
         except UnitError as exc:
             raise StudyError(str(exc)) from None
+        except Exception as exc:  # noqa: BLE001 - any error of the unit parser means the
+            # text cannot be read; it is told as a message about the value, never a traceback
+            raise StudyError(f"values[{i}]: cannot read {value!r} as a value of "
+                             f"{limit_name} ({type(exc).__name__}: {exc})") from None
     document, problem = read_document(problem_path)
     key = f"limits.{limit_name}"
     check_keys(document, [key], str(problem_path))
