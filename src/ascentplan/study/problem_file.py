@@ -69,8 +69,8 @@ def _stage(stage: Stage) -> dict:
     entry["exhaust_speed"] = stage.exhaust_speed
     entry["throttle"] = {"min": stage.throttle_min, "max": stage.throttle_max}
     for name in ("nozzle_exit_area", "max_throttle_rate", "coast_after", "propellant_min",
-                 "propellant_max"):
-        value = getattr(stage, name)
+                 "propellant_max", "shutdown", "propellant_reserve"):
+        value = getattr(stage, name, None)
         if value:
             entry[name] = value
     return entry
