@@ -11,6 +11,7 @@ from ascentplan.study import spec
 from ascentplan.study.errors import StudyError, StudyIncomplete, StudyInterrupted
 from ascentplan.study.files import STUDY_CSV, STUDY_JSONL
 from ascentplan.study.runner import run_study
+from ascentplan.study.stopping import stop_on_signals
 from ascentplan.study.summary import summarise_study
 
 __all__ = ["sweep_command"]
@@ -94,16 +95,31 @@ def sweep_command(problem_path, *, limit: str | None = None, values=None, disper
     -------
     int
         0 when every point finished (whatever its status), 1 when any point raised an
-        error or was not run, 2 for bad input (nothing is run).
+        error or was not run (its worker was lost), 2 for bad input (nothing is run and
+        nothing written), 128 + the signal number when SIGINT (130) or SIGTERM (143)
+        stopped the study (common practice of POSIX shells for a process ended by a
+        signal); the stop is told in one line with the resume hint.
     """
+    with stop_on_signals():
+        try:
+            return _sweep(problem_path, limit, values, dispersion, samples, seed,
+                          dict(workers=workers, scheduler=scheduler, progress=progress,
+                               retry_failed=retry_failed), out)
+        except StudyInterrupted as exc:
+            print(f"ascentplan sweep: {exc}", file=sys.stderr, flush=True)
+            return exc.exit_status
+
+
+def _sweep(problem_path, limit, values, dispersion, samples, seed, running: dict,
+           out) -> int:
+    """The sweep command inside its signal handling: exit status 0, 1 or 2."""
     from ascentplan.cautions import CAUTION
     from ascentplan.problem.loader import ProblemError
 
     try:
         study, default = _study(problem_path, limit, values, dispersion, samples, seed)
         folder = Path(out) if out is not None else Path("results") / default
-        rows = run_study(study, folder, workers=workers, scheduler=scheduler,
-                         progress=progress, retry_failed=retry_failed)
+        rows = run_study(study, folder, **running)
         status = 1 if any(r.get("error") for r in rows) else 0
     except ProblemError as exc:
         for message in exc.messages:
@@ -115,9 +131,6 @@ def sweep_command(problem_path, *, limit: str | None = None, values=None, disper
     except StudyIncomplete as exc:
         rows, status = exc.rows, 1
         _print_error(exc)
-    except StudyInterrupted as exc:
-        print(exc, file=sys.stderr, flush=True)
-        raise
     print(f"ascentplan sweep: {study.name}")
     print(summarise_study(rows))
     print(f"rows written to {folder / STUDY_CSV} and {folder / STUDY_JSONL}")

@@ -2,13 +2,16 @@
 from what it wrote.
 
 ``study.jsonl``
-    One JSON object per point, appended as each task finishes: the record a resumed
+    One JSON object per point, appended as each point arrives: the record a resumed
     study reads. A row of a point retried later supersedes the earlier one.
 ``study.csv``
     The same rows as a table (one per point), rebuilt from ``study.jsonl`` at the start
     of each run and appended to as rows arrive.
 ``study.json``
     The study: problem file and its SHA-256, the points, the columns and their units.
+
+Whole files (``study.json``, a rebuilt ``study.csv``) are written to a temporary file
+and renamed over the old one, so a run killed at any instant leaves either file whole.
 """
 
 from __future__ import annotations
@@ -202,9 +205,17 @@ class StudyFiles:
         }, indent=1) + "\n")
 
     def rebuild_csv(self, rows) -> None:
+        """Write ``study.csv`` from ``rows`` (temporary file and rename).
+
+        ``study.jsonl`` is made first if missing: a table without its record is a folder
+        a study cannot resume from, and a study stopped before its first row must resume.
+        """
+        self.jsonl.touch(exist_ok=True)
         _atomic_write(self.csv, _csv_text(rows, self.columns, header=True))
 
     def append(self, rows) -> None:
+        """Append rows to ``study.jsonl`` (flushed to disk: the record a resume reads),
+        then to ``study.csv``."""
         lines = "".join(json.dumps(_json_safe(row), allow_nan=False) + "\n" for row in rows)
         with open(self.jsonl, "a", encoding="utf-8") as fh:
             fh.write(lines)

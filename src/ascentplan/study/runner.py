@@ -1,52 +1,78 @@
 """Running a study: points cut into chunks of neighbours, solved on local worker processes
-or a Dask distributed cluster behind the one ``concurrent.futures`` interface, rows
-written as each chunk finishes."""
+or a Dask distributed cluster, each row written as its point arrives; SIGINT and SIGTERM
+stop the workers and leave the folder ready to resume."""
 
 from __future__ import annotations
 
 import math
-import multiprocessing
 import os
-from concurrent.futures import ProcessPoolExecutor, as_completed
-from concurrent.futures.process import BrokenProcessPool
+from concurrent.futures import as_completed
 from contextlib import contextmanager
 from pathlib import Path
 
-from ascentplan.study.document import checked_problem, read_document
+from ascentplan.study.document import read_document
 from ascentplan.study.errors import StudyError, StudyIncomplete, StudyInterrupted
 from ascentplan.study.files import StudyFiles, file_digest, study_columns
+from ascentplan.study.pool import LocalPool
 from ascentplan.study.progress import Progress
-from ascentplan.study.spec import Study
+from ascentplan.study.spec import Study, check_points
+from ascentplan.study.stopping import held, stop_on_signals
 from ascentplan.study.worker import failed_row, solve_chunk
 
 __all__ = ["MAX_CHUNK", "run_study"]
 
 #: largest number of neighbouring points solved in one task: the first point of a chunk is
-#: solved cold, the others warm-started from their predecessor; an interrupted study loses
-#: at most the chunks in flight
+#: solved cold, the others warm-started from their predecessor
 MAX_CHUNK = 8
 
 
 # --------------------------------------------------------------------------------------
-# executors: local processes or a Dask cluster, behind the concurrent.futures interface
+# where the points run: local processes or a Dask cluster, both yielding the same events
 
 
 def _lost_worker(exc: BaseException) -> bool:
-    """True when a task died with its worker process (not when the task raised)."""
-    return isinstance(exc, BrokenProcessPool) or type(exc).__name__ == "KilledWorker"
+    """True when a Dask task died with its worker (not when the task raised)."""
+    return type(exc).__name__ == "KilledWorker"
 
 
-@contextmanager
-def _local_pool(workers):
-    count = workers or os.cpu_count() or 1
-    # spawn: a fresh interpreter per worker, as on a cluster, and safe when the parent
-    # runs threads (fork copies their locks)
-    pool = ProcessPoolExecutor(max_workers=count,
-                               mp_context=multiprocessing.get_context("spawn"))
-    try:
-        yield pool, count, f"{count} local worker process{'es' if count > 1 else ''}"
-    finally:
-        pool.shutdown(wait=True, cancel_futures=True)
+class _DaskPool:
+    """The workers of a Dask cluster; a task answers once, with the rows of its chunk."""
+
+    def __init__(self, client, own: bool):
+        self.client, self.own = client, own
+        threads = client.nthreads()
+        if not threads:
+            raise StudyError(f"scheduler: the Dask scheduler at {client.scheduler.address} "
+                             f"has no workers")
+        self.count = sum(threads.values())
+        self.where = (f"Dask scheduler {client.scheduler.address}: {len(threads)} workers, "
+                      f"{self.count} threads")
+        self._futures: dict = {}
+
+    def solve(self, chunks: list, problem_path: str, digest: str, run: int):
+        """As :meth:`ascentplan.study.pool.LocalPool.solve`, a chunk's rows at a time."""
+        executor = self.client.get_executor(pure=False)
+        self._futures = {executor.submit(solve_chunk, problem_path, digest, chunk, run): chunk
+                         for chunk in chunks}
+        for future in as_completed(self._futures):
+            chunk = self._futures[future]
+            try:
+                rows = future.result()
+            except Exception as exc:  # noqa: BLE001
+                if _lost_worker(exc):
+                    yield "lost", [i for i, _ in chunk], f"{type(exc).__name__}: {exc}"
+                    continue
+                rows = [failed_row(i, run, p, exc, 0.0,
+                                   prefix="the worker could not run the task: ")
+                        for i, p in chunk]
+            for row in rows:
+                yield "row", row
+
+    def close(self) -> None:
+        for future in self._futures:
+            future.cancel()
+        if self.own:
+            self.client.close()
 
 
 def _dask_client(scheduler):
@@ -69,25 +95,26 @@ def _dask_client(scheduler):
 
 
 @contextmanager
-def _executor(workers, scheduler):
-    """(pool, number of workers, where they run) for local processes or a Dask cluster."""
+def _executor(workers, scheduler, todo: int):
+    """The pool of local processes or of a Dask cluster (``count``, ``where``,
+    ``solve``) for ``todo`` points."""
     if scheduler is None:
-        with _local_pool(workers) as local:
-            yield local
+        # no more processes than points: a worker's start costs an interpreter and the
+        # solver's imports; the chunks come out the same (one point each) either way
+        with LocalPool(min(workers or os.cpu_count() or 1, todo)) as pool:
+            yield pool
         return
     client, own = _dask_client(scheduler)
     try:
-        threads = client.nthreads()
-        if not threads:
-            raise StudyError(f"scheduler: the Dask scheduler at {client.scheduler.address} "
-                             f"has no workers")
-        count = sum(threads.values())
-        pool = client.get_executor(pure=False)
-        yield pool, count, (f"Dask scheduler {client.scheduler.address}: {len(threads)} "
-                            f"workers, {count} threads")
-    finally:
+        pool = _DaskPool(client, own)
+    except BaseException:
         if own:
             client.close()
+        raise
+    try:
+        yield pool
+    finally:
+        pool.close()
 
 
 def _chunks(items: list, workers: int, chunk_size: int | None) -> list:
@@ -115,30 +142,11 @@ def _check_arguments(study, workers, scheduler, chunk_size) -> None:
         raise StudyError(f"chunk_size: expected a whole number >= 1, got {chunk_size!r}")
 
 
-def _check_point_keys(study: Study, document: dict) -> None:
-    """StudyError for the first point with a key the problem file has no number at."""
-    refused = {}
-    for key in study.change_keys:
-        try:
-            checked_problem(document, [key], study.problem_path)
-        except StudyError as exc:
-            refused[key] = str(exc)
-    for i, point in enumerate(study.points):
-        for key in point:
-            if key in refused:
-                raise StudyError("\n".join(f"points[{i}]: {line}"
-                                           for line in refused[key].split("\n")))
-
-
-def _chunk_rows(future, chunk: list, run: int) -> tuple[list, str]:
-    """The rows of a finished task, and why its worker was lost ("" when it was not)."""
-    try:
-        return future.result(), ""
-    except Exception as exc:  # noqa: BLE001
-        if _lost_worker(exc):
-            return [], f"{type(exc).__name__}: {exc}"
-        return [failed_row(i, run, p, exc, 0.0, prefix="the worker could not run the task: ")
-                for i, p in chunk], ""
+def _record(files: StudyFiles, rows: dict, row: dict) -> None:
+    # a stop signal waits until the row is in both files and in the rows returned
+    with held():
+        files.append([row])
+        rows[row["index"]] = row
 
 
 def _solve_points(study: Study, digest: str, todo: list, run: int, files: StudyFiles,
@@ -149,30 +157,29 @@ def _solve_points(study: Study, digest: str, todo: list, run: int, files: StudyF
     lost: list = []
     lost_reason = ""
     try:
-        with _executor(workers, scheduler) as (pool, count, where):
-            chunks = _chunks(todo, count, chunk_size)
+        with _executor(workers, scheduler, len(todo)) as pool:
+            chunks = _chunks(todo, pool.count, chunk_size)
             bar.note(f"{study.name}: {len(todo)} of {len(study.points)} points to solve on "
-                     f"{where}, {len(chunks)} task(s); {len(rows)} already in {files.dir}")
-            futures = {pool.submit(solve_chunk, study.problem_path, digest, chunk, run): chunk
-                       for chunk in chunks}
-            try:
-                for future in as_completed(futures):
-                    new, gone = _chunk_rows(future, futures[future], run)
-                    if gone:
-                        lost += [i for i, _ in futures[future]]
-                        lost_reason = gone
-                        continue
-                    files.append(new)
-                    for row in new:
-                        rows[row["index"]] = row
-                        bar.point(row)
-            except KeyboardInterrupt:
-                for future in futures:
-                    future.cancel()
-                raise StudyInterrupted(
-                    f"interrupted: {len(rows)} of {len(study.points)} points are in "
-                    f"{files.jsonl}; run the study again to resume",
-                    [rows[i] for i in sorted(rows)]) from None
+                     f"{pool.where}, {len(chunks)} task(s); {len(rows)} already in "
+                     f"{files.dir}")
+            for event in pool.solve(chunks, study.problem_path, digest, run):
+                if event[0] == "lost":
+                    lost += event[1]
+                    lost_reason = event[2]
+                    bar.note(f"point(s) {', '.join(map(str, event[1]))} lost with their "
+                             f"worker ({lost_reason}); a resume solves them again")
+                    continue
+                _record(files, rows, event[1])
+                bar.point(event[1])
+    except KeyboardInterrupt as exc:
+        # our handler's StudyInterrupted names its signal; a bare KeyboardInterrupt is an
+        # interrupt where no handler could be set (a study run outside the main thread)
+        stopped = exc if isinstance(exc, StudyInterrupted) else StudyInterrupted(
+            "interrupted", [])
+        raise StudyInterrupted(
+            f"{stopped}: {len(rows)} of {len(study.points)} points are in {files.jsonl}; "
+            f"run the study again to resume", [rows[i] for i in sorted(rows)],
+            stopped.signal_number) from None
     finally:
         bar.close()
     return lost, lost_reason
@@ -185,9 +192,16 @@ def run_study(study: Study, out_dir, *, workers: int | None = None, scheduler=No
 
     Points are cut into chunks of neighbouring points (up to :data:`MAX_CHUNK`); each
     chunk is one task, solved in order in one worker so that each point warm-starts from
-    the previous one and reuses the built NLP. Rows are appended to ``study.jsonl`` and
-    ``study.csv`` as each task finishes. Points whose index is already in
-    ``study.jsonl`` are skipped, so running an interrupted study again resumes it.
+    the previous one and reuses the built NLP. Before any worker starts or any file is
+    written, every point's changed problem is read by the problem loader. A row is
+    appended to ``study.jsonl`` (flushed to disk) and ``study.csv`` as its point finishes
+    on a local worker, and as its chunk finishes on Dask. Points whose index is already
+    in ``study.jsonl`` are skipped, so running an interrupted study again resumes it.
+
+    SIGINT and SIGTERM (when called from the main thread) stop the workers and raise
+    :class:`StudyInterrupted`. A local worker process that dies (killed outright) loses
+    the point it was solving: it is reported in :class:`StudyIncomplete` after the other
+    points are solved, and a resume solves it again.
 
     Parameters
     ----------
@@ -219,8 +233,8 @@ def run_study(study: Study, out_dir, *, workers: int | None = None, scheduler=No
         One row per point of the study, by index (see :mod:`ascentplan.study.files` for
         the files). Row keys: ``index``, ``run`` (1 for the first run of the folder, 2
         for the first resume, ...), the point's change keys as given, ``status`` (a
-        result status, or ``failed`` with ``error`` set when the point raised, e.g. when
-        the loader refuses its values), ``objective`` (in ``objective_unit``; None unless
+        result status, or ``failed`` with ``error`` set when the point raised in its
+        worker), ``objective`` (in ``objective_unit``; None unless
         the solver converged), ``burnout_speed_m_s``, ``burnout_altitude_m``,
         ``verified``, per limit ``<name>.bound``, ``.peak``, ``.unit``, ``.active``,
         ``.shadow_price`` (in ``.shadow_price_unit``), ``iterations``, ``nodes``,
@@ -231,20 +245,29 @@ def run_study(study: Study, out_dir, *, workers: int | None = None, scheduler=No
     ProblemError
         For a problem file the loader refuses.
     StudyError
-        For bad arguments, unknown key paths (before anything runs), or a folder that
-        holds another study.
+        Before anything runs or is written: for bad arguments, unknown key paths, values
+        the problem loader refuses (its messages, naming the point, key and value), or a
+        folder that holds another study.
     StudyIncomplete
         When worker processes died and some points were not run; the finished rows are
         written.
     StudyInterrupted
-        On Ctrl-C (a :class:`KeyboardInterrupt`); the finished rows are written.
+        On SIGINT (Ctrl-C) or SIGTERM (a :class:`KeyboardInterrupt`, with the signal's
+        number); the workers are stopped and the finished rows are written.
     """
+    with stop_on_signals():
+        return _run(study, Path(out_dir), workers=workers, scheduler=scheduler,
+                    progress=progress, chunk_size=chunk_size, retry_failed=retry_failed)
+
+
+def _run(study: Study, out_dir: Path, *, workers, scheduler, progress, chunk_size,
+         retry_failed) -> list:
     _check_arguments(study, workers, scheduler, chunk_size)
     document, problem = read_document(study.problem_path)
-    _check_point_keys(study, document)
+    check_points(study, document, problem)
     digest = file_digest(study.problem_path)
 
-    files = StudyFiles(Path(out_dir), study_columns(study.change_keys, problem))
+    files = StudyFiles(out_dir, study_columns(study.change_keys, problem))
     existing = files.rows_to_resume(study.points, digest)
     keep = {i: r for i, r in existing.items() if not (retry_failed and r.get("error"))}
     run = 1 + max((int(r.get("run", 0)) for r in existing.values()), default=0)

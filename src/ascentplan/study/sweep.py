@@ -10,7 +10,8 @@ This module gathers the public names of the study modules:
     Problem-file key paths and changes applied to the problem document, read back by the
     problem loader: :func:`apply_changes`, :func:`check_keys`.
 :mod:`ascentplan.study.runner`
-    :func:`run_study` on local processes or Dask.
+    :func:`run_study` on local processes (:mod:`ascentplan.study.pool`) or Dask; SIGINT
+    and SIGTERM stop it (:mod:`ascentplan.study.stopping`).
 :mod:`ascentplan.study.files`
     The study folder: ``study.jsonl``, ``study.csv``, ``study.json``.
 :mod:`ascentplan.study.summary`

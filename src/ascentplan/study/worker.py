@@ -18,7 +18,7 @@ from ascentplan.study.document import changed_problem, read_document
 from ascentplan.study.errors import StudyError
 from ascentplan.study.files import file_digest
 
-__all__ = ["failed_row", "solve_chunk", "worker_name"]
+__all__ = ["failed_row", "solve_chunk", "solve_points", "worker_name"]
 
 #: Dask workers may run several tasks in threads of one process; the NLP cache and the
 #: solver are not shared between threads safely, so solves in one process take turns
@@ -51,9 +51,9 @@ def _base(path: str, digest: str) -> tuple[dict, Problem]:
     return _BASES[key]
 
 
-def solve_chunk(problem_path: str, digest: str, items: list, run: int) -> list:
+def solve_points(problem_path: str, digest: str, items: list, run: int):
     """Solve neighbouring points in order, each warm-started from the previous converged
-    one of the same NLP structure.
+    one of the same NLP structure, and yield each row as its point finishes.
 
     Parameters
     ----------
@@ -65,15 +65,14 @@ def solve_chunk(problem_path: str, digest: str, items: list, run: int) -> list:
     run : int
         The run of the study folder that solves them.
 
-    Returns
-    -------
-    list of dict
-        One row per point; a point that raised has its error in its row.
+    Yields
+    ------
+    dict
+        One row per point, in order; a point that raised has its error in its row.
     """
     from ascentplan.pipeline import solve
     from ascentplan.transcription.nlp import structure_key
 
-    rows = []
     with _SOLVE_LOCK:
         previous = None
         for index, changes in items:
@@ -87,14 +86,25 @@ def solve_chunk(problem_path: str, digest: str, items: list, run: int) -> list:
                 if warm and result.solution.status != "optimal":
                     # a sweep must not report an artefact of its warm start
                     result, warm = solve(problem), False
-                rows.append(_result_row(index, run, changes, result, warm,
-                                        _time.perf_counter() - start))
+                row = _result_row(index, run, changes, result, warm,
+                                  _time.perf_counter() - start)
                 previous = result if result.solution.status == "optimal" else None
             except Exception as exc:  # noqa: BLE001 - a failed point must not end the study
-                rows.append(failed_row(index, run, changes, exc,
-                                       _time.perf_counter() - start))
+                row = failed_row(index, run, changes, exc, _time.perf_counter() - start)
                 previous = None
-    return rows
+            yield row
+
+
+def solve_chunk(problem_path: str, digest: str, items: list, run: int) -> list:
+    """The rows of :func:`solve_points` as one list, for a task that answers once (a Dask
+    task).
+
+    Returns
+    -------
+    list of dict
+        One row per point, in order.
+    """
+    return list(solve_points(problem_path, digest, items, run))
 
 
 def _finite(value: Any):
