@@ -225,9 +225,12 @@ def _add_sweep(subparsers) -> None:
         "sweep", help="trade study: a sweep of one limit, or a dispersion of vehicle data",
         description="Solve many variants of a problem on local worker processes, or on a "
                     "Dask scheduler given by --scheduler. Rows are written to study.csv and "
-                    "study.jsonl as they finish; running the same command again resumes. "
-                    "Exit status 0 when every point finished (whatever its status), 1 when "
-                    "any point raised, 2 bad input.")
+                    "study.jsonl as each point finishes; Ctrl-C or SIGTERM stops the workers "
+                    "and keeps every finished row, and running the same command again "
+                    "resumes. Every point's values are checked by the problem loader before "
+                    "any worker starts. Exit status 0 when every point finished (whatever "
+                    "its status), 1 when any point raised or was lost with its worker, 2 bad "
+                    "input (nothing run), 130 stopped by SIGINT, 143 stopped by SIGTERM.")
     p.add_argument("file", metavar="FILE", help="YAML problem file")
     what = p.add_mutually_exclusive_group(required=True)
     what.add_argument("--limit", metavar="NAME",
