@@ -275,34 +275,74 @@ def test_changes_apply_in_si_and_derived_masses_follow():
 
 # --- failures ---------------------------------------------------------------------------
 
-def test_worker_failure_becomes_failed_row(problem_file, tmp_path):
-    study = Study(problem_file, [{KEY: 30e3}, {"vehicle.stages[0].dry_mass": -50.0},
-                                 {KEY: 35e3}])
-    rows = run_study(study, tmp_path / "failing", workers=1, progress=False)
+def test_worker_failure_becomes_failed_row(problem_file, monkeypatch):
+    # a point that raises inside its worker (a solver fault, made here by running the
+    # worker's function in this process) becomes a failed row and the others go on
+    import ascentplan.pipeline
+    from ascentplan.study.files import file_digest
+    from ascentplan.study.worker import solve_chunk
+
+    solve = ascentplan.pipeline.solve
+
+    def faulty(problem, **options):
+        if problem.limits.max_dynamic_pressure == 32e3:
+            raise RuntimeError("the solver stopped")
+        return solve(problem, **options)
+
+    monkeypatch.setattr(ascentplan.pipeline, "solve", faulty)
+    path = str(problem_file.resolve())
+    rows = solve_chunk(path, file_digest(path), [(0, {KEY: 30e3}), (1, {KEY: 32e3}),
+                                                 (2, {KEY: 35e3})], run=1)
     assert [r["status"] for r in rows] == ["optimal", "failed", "optimal"]
-    assert "vehicle.stages[0].dry_mass: must be > 0 kg, got -50.0" in rows[1]["error"]
+    assert rows[1]["error"] == "RuntimeError: the solver stopped"
+    assert "Traceback" in rows[1]["traceback"]
     assert rows[0]["error"] is None and rows[2]["error"] is None
     # the point after the failure is solved cold, not from the failed point
     assert rows[2]["warm_started"] is False
-    written = _jsonl(tmp_path / "failing" / STUDY_JSONL)
-    assert {r["index"]: r["status"] for r in written} == {0: "optimal", 1: "failed",
-                                                          2: "optimal"}
-    assert "Traceback" in next(r for r in written if r["index"] == 1)["traceback"]
     text = summarise_study(rows)
     assert "1 raised an error" in text and "over 2 optimal points" in text
 
 
+def test_refused_value_stops_the_study_before_any_worker(problem_file, tmp_path,
+                                                         monkeypatch):
+    from ascentplan.study import runner
+
+    def no_worker(*args, **kwargs):
+        raise AssertionError("a worker was started")
+
+    monkeypatch.setattr(runner, "LocalPool", no_worker)
+    study = Study(problem_file, [{KEY: 30e3}, {"vehicle.stages[0].dry_mass": -50.0},
+                                 {KEY: 35e3}])
+    with pytest.raises(StudyError, match=r"points\[1\] \(vehicle.stages\[0\].dry_mass = "
+                                         r"-50.0\): vehicle.stages\[0\].dry_mass: must be "
+                                         r"> 0 kg, got -50.0"):
+        run_study(study, tmp_path / "never", workers=1, progress=False)
+    assert not (tmp_path / "never").exists()
+
+
 def test_sweep_command_exit_status_and_output(problem_file, tmp_path, capsys):
     out = tmp_path / "cli"
+    # a value the loader refuses: exit status 2 naming point, key and value; nothing run
     status = sweep_command(str(problem_file), limit="max_dynamic_pressure",
                            values=["30 kPa", "-5 kPa"], workers=1, out=str(out),
                            progress=False)
+    err = capsys.readouterr().err
+    assert status == 2
+    assert ("points[1] (limits.max_dynamic_pressure = -5000.0): "
+            "limits.max_dynamic_pressure: must be > 0 kPa, got -5000.0") in err
+    assert not out.exists()
+    # text the unit parser cannot read: a message naming the value, never a traceback
+    assert sweep_command(str(problem_file), limit="max_dynamic_pressure",
+                         values=["30 kPa/0"], workers=1, out=str(out), progress=False) == 2
+    err = capsys.readouterr().err
+    assert "values[0]" in err and "30 kPa/0" in err and "Traceback" not in err
+    assert not out.exists()
+    status = sweep_command(str(problem_file), limit="max_dynamic_pressure",
+                           values=["30 kPa"], workers=1, out=str(out), progress=False)
     printed = capsys.readouterr().out
-    assert status == 1  # a point raised
-    failed = {r["index"]: r["error"] for r in _jsonl(out / STUDY_JSONL)}
-    assert failed[0] is None
-    assert "limits.max_dynamic_pressure: must be > 0 kPa, got -5000.0" in failed[1]
-    assert "2 points: 1 optimal, 1 failed" in printed
+    assert status == 0
+    assert [r["error"] for r in _jsonl(out / STUDY_JSONL)] == [None]
+    assert "1 points: 1 optimal" in printed
     assert str(out / STUDY_CSV) in printed and "Caution" in printed
     # bad input is exit status 2 with the argument named, and nothing is run
     assert sweep_command(str(problem_file), limit="max_q", values=["30 kPa"],
