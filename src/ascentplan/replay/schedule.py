@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -18,6 +18,15 @@ from ascentplan.problem.model import Phase, TimeSchedule
 
 #: length of the pitch-over kick of the default steering [s]
 KICK_DURATION = 5.0
+
+#: slack on the throttle range and the pitch range of a given schedule [-], [rad]: a
+#: schedule written by the optimiser sits on its bounds to rounding, not beyond
+RANGE_SLACK = 1e-9
+
+
+class ScheduleError(ValueError):
+    """A control schedule that does not fit the problem: its phase plan, a stage's
+    throttle range or the pitch convention. The message names the node."""
 
 
 # --------------------------------------------------------------------------------------
@@ -47,6 +56,8 @@ class PhaseControls:
     kind, stage : str or None, int or None
         The phase kind and stage this entry was written for; when given they are
         checked against the phase plan.
+    source_lines : tuple of int or None
+        Line of each node in the schedule file it was read from, for messages.
     """
 
     duration: float
@@ -55,32 +66,33 @@ class PhaseControls:
     pitch: np.ndarray | None = None
     kind: str | None = None
     stage: int | None = None
+    source_lines: tuple | None = field(default=None, compare=False, repr=False)
 
     def __post_init__(self):
         time = np.asarray(self.time, dtype=float).reshape(-1)
         throttle = np.asarray(self.throttle, dtype=float).reshape(-1)
         duration = float(self.duration)
         if not (np.isfinite(duration) and duration >= 0.0):
-            raise ValueError(f"phase duration: must be a finite number >= 0 s, got {duration}")
+            raise ScheduleError(f"phase duration: must be a finite number >= 0 s, got {duration}")
         if time.size == 0:
-            raise ValueError("phase node times: need at least one node")
+            raise ScheduleError("phase node times: need at least one node")
         if not np.all(np.isfinite(time)) or np.any(np.diff(time) <= 0.0):
-            raise ValueError("phase node times: must be finite and strictly increasing")
+            raise ScheduleError("phase node times: must be finite and strictly increasing")
         if throttle.shape != time.shape:
-            raise ValueError(f"phase throttle: expected {time.size} values (one per node), "
+            raise ScheduleError(f"phase throttle: expected {time.size} values (one per node), "
                              f"got {throttle.size}")
         if not np.all(np.isfinite(throttle)) or np.any(throttle < 0.0):
-            raise ValueError("phase throttle: must be finite and >= 0")
+            raise ScheduleError("phase throttle: must be finite and >= 0")
         object.__setattr__(self, "duration", duration)
         object.__setattr__(self, "time", time)
         object.__setattr__(self, "throttle", throttle)
         if self.pitch is not None:
             pitch = np.asarray(self.pitch, dtype=float).reshape(-1)
             if pitch.shape != time.shape:
-                raise ValueError(f"phase pitch: expected {time.size} values (one per node), "
+                raise ScheduleError(f"phase pitch: expected {time.size} values (one per node), "
                                  f"got {pitch.size}")
             if not np.all(np.isfinite(pitch)):
-                raise ValueError("phase pitch: must be finite")
+                raise ScheduleError("phase pitch: must be finite")
             object.__setattr__(self, "pitch", pitch)
 
 
@@ -106,7 +118,7 @@ def check_schedule(problem, plan, schedule) -> None:
 
     Raises
     ------
-    ValueError
+    ScheduleError
         Naming the first mismatch.
     """
     if schedule is None:
@@ -115,21 +127,21 @@ def check_schedule(problem, plan, schedule) -> None:
         _check_time_schedule(schedule)
         return
     if not isinstance(schedule, PhaseSchedule):
-        raise ValueError(f"schedule: expected None, a TimeSchedule or a PhaseSchedule, "
+        raise ScheduleError(f"schedule: expected None, a TimeSchedule or a PhaseSchedule, "
                          f"got {type(schedule).__name__}")
     if len(schedule.phases) != len(plan):
-        raise ValueError(f"schedule: has {len(schedule.phases)} phases, the phase plan has "
+        raise ScheduleError(f"schedule: has {len(schedule.phases)} phases, the phase plan has "
                          f"{len(plan)} ({', '.join(p.kind for p in plan)})")
     steered = dynamics.dynamics_kind(problem.dynamics).steered
     for k, (pc, phase) in enumerate(zip(schedule.phases, plan)):
         if pc.kind is not None and pc.kind != phase.kind:
-            raise ValueError(f"schedule phase {k}: kind {pc.kind!r}, the plan has "
+            raise ScheduleError(f"schedule phase {k}: kind {pc.kind!r}, the plan has "
                              f"{phase.kind!r}")
         if pc.stage is not None and pc.stage != phase.stage:
-            raise ValueError(f"schedule phase {k}: stage {pc.stage}, the plan has "
+            raise ScheduleError(f"schedule phase {k}: stage {pc.stage}, the plan has "
                              f"{phase.stage}")
         if steered and phase.kind == "burn" and pc.pitch is None:
-            raise ValueError(f"schedule phase {k}: a {problem.dynamics} burn needs a pitch at "
+            raise ScheduleError(f"schedule phase {k}: a {problem.dynamics} burn needs a pitch at "
                              f"each node")
 
 
@@ -137,12 +149,122 @@ def _check_time_schedule(schedule: TimeSchedule) -> None:
     time = np.asarray(schedule.time, dtype=float)
     throttle = np.asarray(schedule.throttle, dtype=float)
     if time.ndim != 1 or time.size == 0 or np.any(np.diff(time) <= 0):
-        raise ValueError("schedule.time: must be a non-empty, strictly increasing list [s]")
+        raise ScheduleError("schedule.time: must be a non-empty, strictly increasing list [s]")
     if throttle.shape != time.shape or np.any(throttle < 0) or not np.all(
             np.isfinite(throttle)):
-        raise ValueError(f"schedule.throttle: expected {time.size} finite values >= 0")
+        raise ScheduleError(f"schedule.throttle: expected {time.size} finite values >= 0")
     if schedule.pitch is not None and np.asarray(schedule.pitch).shape != time.shape:
-        raise ValueError(f"schedule.pitch: expected {time.size} values [rad]")
+        raise ScheduleError(f"schedule.pitch: expected {time.size} values [rad]")
+
+
+def check_control_ranges(problem, plan, schedule) -> None:
+    """Refuse scheduled controls outside the ranges the optimiser itself keeps to.
+
+    Those are: in a rise or a burn, the throttle within the burning stage's range
+    [``throttle_min``, ``throttle_max``]; in a coast, a throttle of 0 (the engine is
+    off); in a burn, the pitch within [-90, 90] deg of the local horizontal (a rise
+    flies 90 deg, a coast along the air-relative velocity, whatever the schedule says).
+    A :class:`~ascentplan.problem.TimeSchedule` has its pitch checked here and its
+    throttle by :func:`check_flown_throttle` once the phase times are known.
+
+    Parameters
+    ----------
+    problem : ascentplan.problem.Problem
+    plan : list of ascentplan.problem.model.Phase
+        ``phase_plan(problem)``; the schedule already fits it (:func:`check_schedule`).
+    schedule : PhaseSchedule, TimeSchedule or None
+
+    Raises
+    ------
+    ScheduleError
+        Naming the first node out of range: its file line when known, its time from
+        liftoff [s], the stage and the range.
+    """
+    if isinstance(schedule, TimeSchedule):
+        _check_time_pitch(schedule)
+        return
+    if not isinstance(schedule, PhaseSchedule):
+        return
+    start = 0.0
+    for k, (pc, phase) in enumerate(zip(schedule.phases, plan)):
+        stage = problem.vehicle.stages[phase.stage]
+        for j, t in enumerate(pc.time):
+            where = _node_place(pc, k, j, start + t, phase, stage)
+            eta = float(pc.throttle[j])
+            if phase.powered and not _within(eta, stage.throttle_min, stage.throttle_max):
+                raise ScheduleError(f"{where}: throttle {eta:g} is outside the stage's "
+                                    f"throttle range [{stage.throttle_min:g}, "
+                                    f"{stage.throttle_max:g}]")
+            if not phase.powered and not _within(eta, 0.0, 0.0):
+                raise ScheduleError(f"{where}: throttle {eta:g} in a coast; the engine is "
+                                    f"off there, the throttle must be 0")
+            if phase.kind == "burn" and pc.pitch is not None:
+                _check_pitch(float(pc.pitch[j]), where)
+        start += pc.duration
+
+
+def check_flown_throttle(problem, schedule, phase_bounds, phase_kinds, phase_stages) -> None:
+    """Refuse a time schedule whose throttle leaves a burning stage's range.
+
+    The throttle is linear between the schedule's nodes, so it is within range over a
+    powered phase when it is at the phase's ends and at the nodes inside it.
+
+    Parameters
+    ----------
+    problem : ascentplan.problem.Problem
+    schedule : TimeSchedule
+    phase_bounds : list of (float, float)
+        Start and end of each phase flown [s].
+    phase_kinds, phase_stages : sequence
+        Kind and stage index of each phase flown.
+
+    Raises
+    ------
+    ScheduleError
+        Naming the time, the stage and its range.
+    """
+    nodes = np.asarray(schedule.time, dtype=float)
+    values = np.asarray(schedule.throttle, dtype=float)
+    for (t0, t1), kind, index in zip(phase_bounds, phase_kinds, phase_stages):
+        if kind not in ("rise", "burn"):
+            continue
+        stage = problem.vehicle.stages[index]
+        inside = np.flatnonzero((nodes >= t0) & (nodes <= t1))
+        times = [(t0, None), *[(nodes[i], i) for i in inside], (t1, None)]
+        for t, i in times:
+            eta = float(np.interp(t, nodes, values))
+            if _within(eta, stage.throttle_min, stage.throttle_max):
+                continue
+            node = f"schedule.throttle[{i}]" if i is not None else "schedule.throttle"
+            raise ScheduleError(f"{node}: {eta:g} at t = {t:.3f} s, while stage "
+                                f"{index} ({stage.name!r}) burns, is outside its throttle "
+                                f"range [{stage.throttle_min:g}, {stage.throttle_max:g}]")
+
+
+def _within(value: float, low: float, high: float) -> bool:
+    return low - RANGE_SLACK <= value <= high + RANGE_SLACK
+
+
+def _check_pitch(pitch: float, where: str) -> None:
+    """Pitch from the local horizontal [rad] within [-90, 90] deg: thrust never points aft."""
+    if not _within(pitch, -0.5 * math.pi, 0.5 * math.pi):
+        raise ScheduleError(f"{where}: pitch {math.degrees(pitch):g} deg is outside "
+                            f"[-90, 90] deg (measured from the local horizontal)")
+
+
+def _check_time_pitch(schedule: TimeSchedule) -> None:
+    if schedule.pitch is None:
+        return
+    for i, (t, pitch) in enumerate(zip(schedule.time, schedule.pitch)):
+        _check_pitch(float(pitch), f"schedule.pitch[{i}] at t = {float(t):g} s "
+                                   f"({float(pitch):g} rad)")
+
+
+def _node_place(pc: PhaseControls, k: int, j: int, t: float, phase, stage) -> str:
+    """Where node ``j`` of phase ``k`` is, in words: file line, time, phase and stage."""
+    line = f"line {pc.source_lines[j]}, " if pc.source_lines is not None else ""
+    return (f"schedule {line}phase {k} ({phase.kind} of stage {phase.stage} "
+            f"{stage.name!r}) at t = {t:g} s")
 
 
 # --------------------------------------------------------------------------------------

@@ -46,21 +46,37 @@ class Verification:
     reasons: list = field(default_factory=list)
 
 
-def limit_peaks(problem: Problem, trajectory) -> list[LimitCheck]:
+def limit_peaks(problem: Problem, trajectory, phase_kinds=None) -> list[LimitCheck]:
     """Peak of each imposed limit's quantity over the phases where it is imposed.
 
     The peak is the extreme sample of the replay's dense time grid
     (:meth:`~ascentplan.replay.trajectory.Trajectory.extreme`, not refined), on the
-    phases of the problem's plan whose kind the limit applies to (:data:`LIMITS`).
+    phases whose kind the limit applies to (:data:`LIMITS`).
+
+    Parameters
+    ----------
+    problem : Problem
+    trajectory : Trajectory
+    phase_kinds : sequence of str, optional
+        Kind of each phase searched, by index; default the problem's phase plan (so a
+        final coast that the replay adds beyond the plan is not searched). A flight of
+        its own passes ``trajectory.phase_kinds`` to search every phase it flew.
+
+    Returns
+    -------
+    list of LimitCheck
+        One per limit of the problem, in :data:`LIMITS` order; peak and time NaN when
+        no phase flown is one the limit applies to, or the flight has no such quantity.
     """
-    kinds = [ph.kind for ph in phase_plan(problem)]
+    kinds = ([ph.kind for ph in phase_plan(problem)] if phase_kinds is None
+             else list(phase_kinds))
     flown = np.asarray(trajectory.phase)
     checks = []
     for name in problem.limits.active_names():
         spec = LIMITS[name]
         bound = float(getattr(problem.limits, name))
         imposed = [k for k, kind in enumerate(kinds) if kind in spec.phases]
-        if not np.isin(flown, imposed).any():
+        if spec.quantity not in trajectory.quantities or not np.isin(flown, imposed).any():
             checks.append(LimitCheck(name, bound, float("nan"), float("nan"), 0.0))
             continue
         peak, time, _ = trajectory.extreme(spec.quantity, sense=spec.sense,
