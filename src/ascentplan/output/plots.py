@@ -15,6 +15,8 @@ from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 
 from ascentplan.models.dynamics import dynamics_kind, flight_model, flight_quantities, propulsion
+from ascentplan.output.atomic import atomic_open
+from ascentplan.output.text import printable
 from ascentplan.problem.limits import LIMITS
 from ascentplan.problem.model import Problem, phase_plan
 
@@ -168,7 +170,7 @@ def _event_marks(problem: Problem, trajectory) -> list[tuple[float, str]]:
             continue
         time = float(ev["time"])
         stage = ev.get("stage")
-        name = (stages[stage].name if isinstance(stage, (int, np.integer))
+        name = (printable(stages[stage].name) if isinstance(stage, (int, np.integer))
                 and 0 <= stage < len(stages) and kind != "apogee" else None)
         if not groups or time - groups[-1][0] > _EVENT_MERGE_FRACTION * span:
             groups.append((time, [], []))
@@ -226,7 +228,7 @@ def _label_events(ax, events) -> None:
         ax.annotate(label, xy=(time, y), xycoords=ax.get_xaxis_transform(),
                     xytext=(-3 if right_half else 3, 0), textcoords="offset points",
                     ha="right" if right_half else "left", va="top", fontsize=7,
-                    color="0.25")
+                    color="0.25", parse_math=False)
 
 
 def _panels_for(problem: Problem) -> list[_Panel]:
@@ -242,7 +244,9 @@ def _panel_figure(problem: Problem, trajectory, key: str, nodes=None) -> Figure:
     node_values = _node_quantities(problem, nodes) if nodes is not None else None
     _draw_panel(ax, problem, trajectory, panel, node_values, _event_marks(problem, trajectory),
                 label_events=True, legend=True)
-    fig.suptitle(problem.name, fontsize=9, color="0.3", x=0.99, ha="right")
+    # a name is shown as written: no mathtext from a '$' in it
+    fig.suptitle(printable(problem.name), fontsize=9, color="0.3", x=0.99, ha="right",
+                 parse_math=False)
     return fig
 
 
@@ -272,7 +276,8 @@ def _overview_figure(problem: Problem, trajectory, nodes=None) -> Figure:
         handles.append(Line2D([], [], **_EVENT_STYLE, label="event (see first panel)"))
     fig.legend(handles=handles, loc="outside lower center", ncols=len(handles), fontsize=9,
                frameon=False)
-    fig.suptitle(f"{problem.name}: {problem.dynamics} ascent", fontsize=12)
+    fig.suptitle(f"{printable(problem.name)}: {problem.dynamics} ascent", fontsize=12,
+                 parse_math=False)
     return fig
 
 
@@ -316,13 +321,19 @@ def plot_trajectory(problem: Problem, trajectory, out_dir, *, nodes=None,
     for panel in _panels_for(problem):
         fig = _panel_figure(problem, trajectory, panel.key, nodes)
         path = out / f"{prefix}{panel.key}.png"
-        fig.savefig(path, dpi=DPI)
+        _save(fig, path)
         paths.append(path)
     fig = _overview_figure(problem, trajectory, nodes)
     path = out / f"{prefix}overview.png"
-    fig.savefig(path, dpi=DPI)
+    _save(fig, path)
     paths.append(path)
     return paths
+
+
+def _save(fig: Figure, path: Path) -> None:
+    """Write a figure as PNG whole or not at all (:func:`~ascentplan.output.atomic.atomic_open`)."""
+    with atomic_open(path, "wb") as fh:
+        fig.savefig(fh, format="png", dpi=DPI)
 
 
 def result_nodes(result) -> list[tuple]:
@@ -378,7 +389,7 @@ def plot_split_map(split_map: dict, out_dir, *, unit: str, objective: str,
     out.mkdir(parents=True, exist_ok=True)
     fractions = np.array(split_map["fractions"])
     values = np.array(split_map["objective"], dtype=float)
-    names = split_map["stage_names"]
+    names = [printable(name) for name in split_map["stage_names"]]
     center = split_map["center_fractions"]
     fig = Figure(figsize=(7.0, 5.0))
     FigureCanvasAgg(fig)
@@ -387,7 +398,7 @@ def plot_split_map(split_map: dict, out_dir, *, unit: str, objective: str,
     if fractions.shape[1] == 2:
         ax.plot(100 * fractions[:, 0], values, "o-", color="tab:blue")
         ax.axvline(100 * center[0], color="tab:red", linestyle=":", label="coupled optimum")
-        ax.set_xlabel(f"{names[0]} share of the total stage mass [%]")
+        ax.set_xlabel(f"{names[0]} share of the total stage mass [%]", parse_math=False)
         ax.set_ylabel(label)
         ax.legend(loc="best")
     else:
@@ -400,12 +411,12 @@ def plot_split_map(split_map: dict, out_dir, *, unit: str, objective: str,
         fig.colorbar(filled, ax=ax, label=label)
         ax.plot(100 * center[0], 100 * center[1], "r*", markersize=12,
                 label="coupled optimum")
-        ax.set_xlabel(f"{names[0]} share of the total stage mass [%]")
-        ax.set_ylabel(f"{names[1]} share of the total stage mass [%]")
+        ax.set_xlabel(f"{names[0]} share of the total stage mass [%]", parse_math=False)
+        ax.set_ylabel(f"{names[1]} share of the total stage mass [%]", parse_math=False)
         ax.legend(loc="best")
     ax.set_title("Objective around the optimal stage-mass split (re-solved at each point)")
     ax.grid(True, alpha=0.3)
     fig.tight_layout()
     path = out / name
-    fig.savefig(path, dpi=DPI)
+    _save(fig, path)
     return path
