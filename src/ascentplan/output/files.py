@@ -10,17 +10,19 @@ import os
 import numpy as np
 
 from ascentplan.cautions import CAUTION
+from ascentplan.output.atomic import atomic_open
 from ascentplan.problem.limits import LIMITS
 from ascentplan.replay.budget import LOSS_NAMES, LOSS_QUANTITIES
-from ascentplan.replay.schedule import PhaseControls, PhaseSchedule
+from ascentplan.replay.schedule import PhaseControls, PhaseSchedule, ScheduleError
 from ascentplan.replay.trajectory import Trajectory
+from ascentplan.replay.verify import limit_peaks
 
 #: columns of a schedule CSV, in order
 SCHEDULE_COLUMNS = ("phase", "kind", "stage", "phase_time_s", "time_s", "throttle", "pitch_deg")
 _PHASE_KINDS = ("rise", "burn", "coast")
 
 
-class ScheduleFileError(ValueError):
+class ScheduleFileError(ScheduleError):
     """A schedule CSV that cannot be read; the message names the file, line and column."""
 
 
@@ -74,7 +76,8 @@ def write_trajectory_csv(trajectory: Trajectory, path) -> None:
     header = ",".join(name for name, _ in cols)
     fmt = ["%.12g"] * len(cols)
     fmt[1] = "%d"
-    np.savetxt(path, data, delimiter=",", header=header, comments="", fmt=fmt)
+    with atomic_open(path, "w", encoding="utf-8", newline="") as fh:
+        np.savetxt(fh, data, delimiter=",", header=header, comments="", fmt=fmt)
 
 
 # --------------------------------------------------------------------------------------
@@ -116,11 +119,13 @@ def _at(traj, name, index):
 def simulation_summary(problem, trajectory: Trajectory) -> dict:
     """Machine-readable summary of a flight (JSON-ready, stable keys, SI units in names).
 
-    Keys: ``problem``, ``dynamics``, ``status``, ``message``, ``burnout`` (time_s,
+    Keys: ``problem``, ``dynamics``, ``status`` (``ok``, ``limits_exceeded``,
+    ``impact`` or ``failed``; see :func:`flight_verdict`), ``message``, ``burnout`` (time_s,
     altitude_m, speed_m_s, flight_path_angle_deg, mass_kg), ``apogee`` (time_s,
     altitude_m, or None), ``peaks`` (``dynamic_pressure``: value_Pa, time_s, altitude_m,
     mach; ``axial_acceleration``: value_g0, time_s, altitude_m; planar ``q_alpha``:
     value_Pa_rad, time_s, altitude_m, mach; ``min_altitude``: value_m, time_s),
+    ``limits`` (each limit of the file against its peak, :func:`limit_rows`),
     ``losses_m_s`` (ideal, achieved, gravity, drag, steering, back_pressure, residual =
     ideal - achieved - losses), ``phases`` (index, kind, stage, start_s, end_s),
     ``events`` and ``caution``.
@@ -158,16 +163,63 @@ def simulation_summary(problem, trajectory: Trajectory) -> dict:
     phases = [dict(index=k, kind=kind, stage=stage, start_s=bounds[0], end_s=bounds[1])
               for k, (kind, stage, bounds) in enumerate(zip(
                   traj.phase_kinds, traj.phase_stages, traj.phase_bounds))]
-    summary = dict(problem=problem.name, dynamics=traj.dynamics, status=traj.status,
-                   message=traj.message, burnout=burnout, apogee=apogee, peaks=peaks,
-                   losses_m_s=losses, phases=phases,
+    limits = limit_rows(problem, traj)
+    status, message = flight_verdict(traj, limits)
+    summary = dict(problem=problem.name, dynamics=traj.dynamics, status=status,
+                   message=message, burnout=burnout, apogee=apogee, peaks=peaks,
+                   limits=limits, losses_m_s=losses, phases=phases,
                    events=[_event_summary(e) for e in traj.events], caution=CAUTION)
     return _clean(summary)
 
 
+def limit_rows(problem, trajectory: Trajectory) -> list[dict]:
+    """Each limit of the problem file against its peak in a flight, in the user's units.
+
+    The peak is taken as verification takes it (:func:`ascentplan.replay.verify.limit_peaks`:
+    the extreme sample on the phases the limit applies to), over every phase flown. A
+    limit counts as exceeded beyond ``mesh.limit_tolerance_fraction`` of its bound, the
+    tolerance of verification.
+
+    Returns
+    -------
+    list of dict
+        ``name``, ``bound``, ``unit``, ``peak`` (None when no phase flown is one the
+        limit applies to), ``peak_time_s``, ``excess_fraction`` (> 0 beyond the bound),
+        ``tolerance_fraction``, ``exceeded``.
+    """
+    tolerance = float(problem.mesh.limit_tolerance_fraction)
+    rows = []
+    for check in limit_peaks(problem, trajectory, phase_kinds=trajectory.phase_kinds):
+        spec = LIMITS[check.name]
+        rows.append(dict(name=check.name, bound=spec.to_user(check.bound), unit=spec.unit,
+                         peak=spec.to_user(check.peak), peak_time_s=check.time,
+                         excess_fraction=check.excess_fraction,
+                         tolerance_fraction=tolerance,
+                         exceeded=bool(check.excess_fraction > tolerance)))
+    return rows
+
+
+def flight_verdict(trajectory: Trajectory, limits: list[dict]) -> tuple[str, str]:
+    """Status and message of a flight: the trajectory's own unless it is ``"ok"`` and a
+    limit is exceeded, which makes it ``"limits_exceeded"`` (an impact or a failure says
+    more about the flight than a limit does)."""
+    exceeded = [row for row in limits if row["exceeded"]]
+    if trajectory.status != "ok" or not exceeded:
+        return trajectory.status, trajectory.message
+    words = [f"{row['name']} {row['peak']:.4g} {row['unit']} against {row['bound']:.4g} "
+             f"{row['unit']} ({100 * row['excess_fraction']:+.1f} %) at t = "
+             f"{row['peak_time_s']:.2f} s" for row in exceeded]
+    return "limits_exceeded", (f"{len(exceeded)} limit(s) exceeded beyond "
+                               f"{100 * exceeded[0]['tolerance_fraction']:g} % of the bound: "
+                               + "; ".join(words))
+
+
 def write_json(d: dict, path) -> None:
-    """Write a JSON-ready dict (NaN becomes null), indented, with a final newline."""
-    with open(path, "w", encoding="utf-8") as fh:
+    """Write a JSON-ready dict (NaN becomes null), indented, with a final newline.
+
+    Written to a temporary file and renamed (:func:`ascentplan.output.atomic.atomic_open`).
+    """
+    with atomic_open(path, "w", encoding="utf-8") as fh:
         json.dump(_clean(d), fh, indent=2, allow_nan=False)
         fh.write("\n")
 
@@ -228,6 +280,7 @@ def format_summary(summary: dict) -> str:
         qa = p["q_alpha"]
         lines.append(f"max q-alpha  {num(q_alpha.to_user(qa['value_Pa_rad']), '.3f')} "
                      f"{q_alpha.unit} at t = {num(qa['time_s'], '.2f')} s")
+    lines += _limit_lines(summary.get("limits") or [])
     lines.append("velocity budget [m/s]")
     losses = summary["losses_m_s"]
     for key, label in (("ideal", "ideal"), ("gravity", "gravity loss"),
@@ -236,6 +289,22 @@ def format_summary(summary: dict) -> str:
                        ("residual", "residual")):
         lines.append(f"  {label:<20s}{num(losses[key], '12.3f')}")
     return "\n".join(lines)
+
+
+def _limit_lines(limits: list[dict]) -> list[str]:
+    """The limits block of the printed summary: bound, peak, excess, verdict."""
+    if not limits:
+        return []
+    lines = [f"limits       {'name':<24s}{'bound':>14s}{'peak':>12s}{'excess':>10s}"]
+    for row in limits:
+        bound = f"{row['bound']:g} {row['unit']}"
+        if row["peak"] is None:
+            lines.append(f"             {row['name']:<24s}{bound:>14s}{'not flown':>12s}")
+            continue
+        verdict = "  EXCEEDED" if row["exceeded"] else ""
+        lines.append(f"             {row['name']:<24s}{bound:>14s}{row['peak']:12.4g}"
+                     f"{100 * row['excess_fraction']:+9.2f}%{verdict}")
+    return lines
 
 
 # --------------------------------------------------------------------------------------
@@ -255,7 +324,7 @@ def write_schedule_csv(schedule: PhaseSchedule, path, phase_plan) -> None:
         raise ValueError(f"write_schedule_csv: {len(schedule.phases)} phases in the schedule,"
                          f" {len(plan)} in the phase plan")
     start = 0.0
-    with open(path, "w", newline="", encoding="utf-8") as fh:
+    with atomic_open(path, "w", newline="", encoding="utf-8") as fh:
         writer = csv.writer(fh)
         writer.writerow(SCHEDULE_COLUMNS)
         for k, (pc, phase) in enumerate(zip(schedule.phases, plan)):
@@ -303,9 +372,13 @@ def read_schedule_csv(path) -> PhaseSchedule:
     for group in groups:
         times = np.array([g[3] for g in group])
         pitch = None if group[0][5] is None else np.radians([g[5] for g in group])
-        phases.append(PhaseControls(duration=float(times[-1]), time=times,
-                                    throttle=np.array([g[4] for g in group]), pitch=pitch,
-                                    kind=group[0][1], stage=group[0][2]))
+        try:
+            phases.append(PhaseControls(duration=float(times[-1]), time=times,
+                                        throttle=np.array([g[4] for g in group]),
+                                        pitch=pitch, kind=group[0][1], stage=group[0][2],
+                                        source_lines=tuple(g[0] for g in group)))
+        except ScheduleError as exc:
+            raise ScheduleFileError(f"{name} line {group[0][0]}: {exc}") from None
     return PhaseSchedule(tuple(phases))
 
 

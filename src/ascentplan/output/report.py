@@ -11,6 +11,7 @@ from pathlib import Path
 
 from ascentplan import __version__
 from ascentplan.cautions import CAUTION
+from ascentplan.output.atomic import write_text
 from ascentplan.problem.limits import LIMITS
 from ascentplan.problem.model import OBJECTIVES, SCHEMES
 
@@ -79,8 +80,14 @@ _PEAK_UNITS = {"value_" + spec.si_unit.replace(" ", "_"): spec for spec in LIMIT
 _NUMERIC = re.compile(r"^(n/a|[-+]?[\d,]*\.?\d+(e[-+]?\d+)?)$")
 
 
+#: characters an HTML document may not carry (its syntax forbids C0/C1 controls but
+#: tab, line feed and carriage return): shown as escapes instead
+_CONTROL = re.compile(r"[\x00-\x08\x0b\x0c\x0e-\x1f\x7f-\x9f]")
+
+
 def _e(value) -> str:
-    return html.escape(str(value), quote=True)
+    text = _CONTROL.sub(lambda m: f"\\x{ord(m.group()):02x}", str(value))
+    return html.escape(text, quote=True)
 
 
 def _is_number(value) -> bool:
@@ -188,6 +195,8 @@ def _limits_section(summary: dict) -> str:
         return ""
     if not limits:
         return _section("Limits", "<p>No path limits were imposed.</p>")
+    if all(isinstance(lim, dict) and "exceeded" in lim for lim in limits):
+        return _flown_limits_section(limits)
     rows = []
     for lim in limits:
         name = str(lim.get("name", ""))
@@ -203,6 +212,26 @@ def _limits_section(summary: dict) -> str:
     return _section("Limits", _table(
         ["limit", "unit", "bound", "peak", "peak at [s]", "active", "shadow price",
          "shadow price unit"], rows, numeric={2, 3, 4, 6}) + "\n" + note)
+
+
+def _flown_limits_section(limits: list) -> str:
+    """The limits of a flight of ``simulate``: bound, peak, excess, exceeded or not."""
+    rows = []
+    for lim in limits:
+        name = str(lim.get("name", ""))
+        excess = lim.get("excess_fraction")
+        rows.append([f"{_words(name)} ({name})", lim.get("unit", ""), _num(lim.get("bound"), 3),
+                     _num(lim.get("peak"), 3), _num(lim.get("peak_time_s"), 2),
+                     _num(excess * 100.0 if _is_number(excess) else None, 2),
+                     "EXCEEDED" if lim.get("exceeded") else "within"])
+    tolerance = limits[0].get("tolerance_fraction")
+    note = ("<p>Peak: the extreme on the flight's dense time grid, as verification takes "
+            "it. A limit counts as exceeded beyond "
+            f"{_num(tolerance * 100.0 if _is_number(tolerance) else None, 2)} % of its "
+            "bound, the tolerance of verification.</p>")
+    return _section("Limits", _table(
+        ["limit", "unit", "bound", "peak", "peak at [s]", "excess [% of bound]", "verdict"],
+        rows, numeric={2, 3, 4, 5}) + "\n" + note)
 
 
 def _verification_section(summary: dict) -> str:
@@ -482,7 +511,7 @@ def write_report(result_or_summary, out_dir, *, plots=None) -> Path:
 
             plots = sorted(plot_result(result, out), key=_plot_sort_key)
     path = out / REPORT_NAME
-    path.write_text(render_html(summary, plots), encoding="utf-8")
+    write_text(path, render_html(summary, plots))
     return path
 
 
@@ -506,7 +535,8 @@ def render_report_from_folder(folder) -> Path:
     FileNotFoundError
         If the folder has no summary.json.
     ValueError
-        If summary.json is not a JSON object.
+        If summary.json is not a JSON object, or not one of the shape 'solve' and
+        'simulate' write.
     """
     folder = Path(folder)
     source = folder / "summary.json"
@@ -520,4 +550,12 @@ def render_report_from_folder(folder) -> Path:
     if not isinstance(summary, dict):
         raise ValueError(f"{source}: expected a JSON object at the top level, got "
                          f"{type(summary).__name__}")
-    return write_report(summary, folder, plots=_folder_plots(folder))
+    try:
+        page = render_html(summary, _folder_plots(folder))
+    except (AttributeError, IndexError, KeyError, TypeError, ValueError) as exc:
+        # the file is the input here: content of another shape is the input's fault
+        raise ValueError(f"{source}: not a summary written by 'solve' or 'simulate' "
+                         f"({type(exc).__name__}: {exc})") from None
+    path = folder / REPORT_NAME
+    write_text(path, page)
+    return path
