@@ -1,24 +1,124 @@
-"""The ``ascentplan`` command line: one small handler per verb over the Python API."""
+"""The ``ascentplan`` command line: one small handler per verb over the Python API.
+
+Whatever happens, a verb ends with an exit status and, when it failed, one line on
+stderr per problem, never a traceback (common practice for command-line tools):
+
+* 0 success; 1, 3 and 4 the verbs' own outcomes (a flight that impacts, an infeasible
+  or failed solve, a flight beyond its limits);
+* 2 bad input: a problem file, a schedule file, an argument or a results folder that
+  cannot be used;
+* 70 an internal error (``EX_SOFTWARE`` of BSD ``sysexits.h``): a fault of the tool,
+  shown as one line; ``--debug`` or ``ASCENTPLAN_DEBUG=1`` shows its traceback;
+* 130 interrupted (Ctrl-C; 128 + SIGINT as a shell reports it);
+* 141 standard output closed early, e.g. ``| head -1`` (128 + SIGPIPE, what a shell
+  reports for a tool that SIGPIPE ends).
+
+Text taken from the input (file names, names in a problem file, values) is echoed with
+its control characters escaped (:func:`ascentplan.output.text.printable`).
+"""
 
 from __future__ import annotations
 
 import argparse
+import os
 import sys
+import traceback
 from pathlib import Path
 
 import yaml
 
 from ascentplan import __version__
+from ascentplan.output.text import printable, printable_lines
 from ascentplan.problem.loader import ProblemError, load_problem
 
 #: exit status for a bad problem file or bad usage (argparse uses 2 for usage too)
 EXIT_BAD_INPUT = 2
+#: exit status of ``simulate`` for a flight beyond a limit of the problem file
+EXIT_LIMITS_EXCEEDED = 3
+#: exit status for a fault of the tool itself (``EX_SOFTWARE``, BSD sysexits.h)
+EXIT_INTERNAL = 70
+#: exit status after Ctrl-C (128 + SIGINT)
+EXIT_INTERRUPTED = 130
+#: exit status when standard output is closed before the end (128 + SIGPIPE)
+EXIT_BROKEN_PIPE = 141
+#: every exit status any verb may return (143: a trade study stopped by SIGTERM)
+EXIT_STATUSES = frozenset({0, 1, EXIT_BAD_INPUT, 3, 4, EXIT_INTERNAL, EXIT_INTERRUPTED,
+                           EXIT_BROKEN_PIPE, 143})
+#: environment variable that, set to anything but "" or "0", shows internal tracebacks
+DEBUG_VARIABLE = "ASCENTPLAN_DEBUG"
+#: longest error text shown on the one line of an internal error [characters]
+_MESSAGE_CHARS = 400
+#: longest file name most file systems accept [bytes]
+_NAME_MAX = 255
+
+
+class InputError(Exception):
+    """Input that the command line itself refuses, e.g. a results folder that cannot be
+    created; the message says what and why."""
+
+
+def _say(message) -> None:
+    """One message on stderr, control characters escaped; a closed stderr is ignored."""
+    try:
+        print(printable(message), file=sys.stderr)
+    except (OSError, ValueError):
+        pass
+
+
+def _show(text: str, end: str = "\n") -> None:
+    """Text on stdout, control characters escaped line by line."""
+    print(printable_lines(text), end=end)
 
 
 def _report(error: ProblemError, fallback_source: str) -> None:
     source = error.source or fallback_source
     for message in error.messages:
-        print(f"{source}: {message}", file=sys.stderr)
+        _say(f"{source}: {message}")
+
+
+def _path_argument(text: str) -> str:
+    """A path on the command line: any text an operating system can pass as a path."""
+    if "\x00" in text:
+        raise argparse.ArgumentTypeError(f"not a usable path (a NUL character): {text!r}")
+    try:
+        os.fsencode(text)
+    except UnicodeError:
+        raise argparse.ArgumentTypeError(f"not a usable path (cannot be encoded for the "
+                                         f"file system): {text!r}") from None
+    return text
+
+
+def _results_folder(problem, out) -> Path:
+    """``--out`` as given, else ``results/<problem name>``, refused when the name cannot
+    be one folder's name (so that a name never writes outside ``results/``)."""
+    if out is not None:
+        return Path(out)
+    name = problem.name
+    reason = None
+    if name.strip() in ("", ".", ".."):
+        reason = "not a folder name"
+    elif any(sep in name for sep in ("/", "\\", os.sep)):
+        reason = "a path separator in it"
+    elif not name.isprintable():
+        reason = "a control character in it"
+    elif len(name.encode("utf-8", "surrogateescape")) > _NAME_MAX:
+        reason = f"longer than the {_NAME_MAX} bytes of a file name"
+    if reason is not None:
+        raise InputError(f"name {name!r} cannot be the results folder's name ({reason}); "
+                         f"give --out DIR")
+    return Path("results") / name
+
+
+def _make_folder(folder: Path) -> None:
+    """Create the results folder before any work, so that a refusal costs nothing."""
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+    except (OSError, ValueError) as exc:
+        reason = getattr(exc, "strerror", None) or str(exc)
+        raise InputError(f"results folder {str(folder)!r} cannot be created ({reason})") \
+            from None
+    if not os.access(folder, os.W_OK | os.X_OK):
+        raise InputError(f"results folder {str(folder)!r} is not writable")
 
 
 def _cmd_check(args) -> int:
@@ -34,12 +134,22 @@ def _cmd_check(args) -> int:
             continue
         if i:
             print()
-        print(vehicle_summary(problem), end="")
+        _show(vehicle_summary(problem), end="")
     return status
+
+
+#: exit status of ``simulate`` for each status of its summary
+SIMULATE_EXIT = {"ok": 0, "impact": 1, "failed": 1, "limits_exceeded": EXIT_LIMITS_EXCEEDED}
 
 
 def run_simulate(problem, out=None, schedule=None) -> int:
     """Fly a problem, write ``trajectory.csv`` and ``summary.json``, print a summary.
+
+    The schedule is checked before the flight: it must fit the phase plan, keep each
+    stage's throttle range, fly coasts at throttle 0 and pitch within [-90, 90] deg
+    (:func:`ascentplan.replay.schedule.check_control_ranges`). After the flight every
+    limit of the problem file is compared with its peak as verification compares it
+    (:func:`ascentplan.output.files.limit_rows`).
 
     Parameters
     ----------
@@ -53,37 +163,60 @@ def run_simulate(problem, out=None, schedule=None) -> int:
     Returns
     -------
     int
-        0 when the flight ends normally, 1 on impact or failure, 2 on a bad schedule
-        file.
+        0 when the flight ends normally within its limits, 1 on impact or failure,
+        2 on a bad schedule or a results folder that cannot be created, 3 when a limit
+        is exceeded beyond the verification tolerance.
     """
     # imported here so that ``check`` stays quick
     from ascentplan.cautions import CAUTION
     from ascentplan.output import files
+    from ascentplan.problem.model import TimeSchedule
+    from ascentplan.replay.schedule import ScheduleError, check_flown_throttle
     from ascentplan.replay.simulate import simulate
 
-    flown = problem.schedule
+    folder = Path("results") / problem.name if out is None else Path(out)
     try:
-        if schedule is not None:
-            flown = files.read_schedule_csv(schedule)
-        # a schedule that does not fit the phase plan is refused before any flight
+        flown = _schedule_to_fly(problem, schedule)
+        _make_folder(folder)
         traj = simulate(problem, flown)
-    except (OSError, ValueError) as exc:
-        print(f"error: {exc}", file=sys.stderr)
+        if isinstance(flown, TimeSchedule):
+            check_flown_throttle(problem, flown, traj.phase_bounds, traj.phase_kinds,
+                                 traj.phase_stages)
+    except (ScheduleError, InputError) as exc:
+        _say(f"error: {exc}")
         return EXIT_BAD_INPUT
-    folder = Path("results") / problem.name if out is None else out
     summary, csv_path, json_path = files.write_simulation(problem, traj, folder)
-    print(files.format_summary(summary))
-    print(f"wrote {csv_path}")
-    print(f"wrote {json_path}")
-    if traj.status != "ok":
-        print(f"simulation {traj.status}: {traj.message}", file=sys.stderr)
-    print(CAUTION)
-    return 0 if traj.status == "ok" else 1
+    _show(files.format_summary(summary))
+    _show(f"wrote {csv_path}")
+    _show(f"wrote {json_path}")
+    if summary["status"] != "ok":
+        _say(f"simulation {summary['status']}: {summary['message']}")
+    _show(CAUTION)
+    return SIMULATE_EXIT.get(summary["status"], 1)
+
+
+def _schedule_to_fly(problem, schedule_file):
+    """The schedule ``simulate`` flies, checked against the problem; raises ScheduleError."""
+    from ascentplan.output.files import read_schedule_csv
+    from ascentplan.problem.model import phase_plan
+    from ascentplan.replay.schedule import ScheduleError, check_control_ranges, check_schedule
+
+    flown = problem.schedule
+    if schedule_file is not None:
+        flown = read_schedule_csv(schedule_file)
+    plan = list(phase_plan(problem))
+    try:
+        check_schedule(problem, plan, flown)
+        check_control_ranges(problem, plan, flown)
+    except ScheduleError as exc:
+        where = f"{schedule_file}: " if schedule_file is not None else ""
+        raise ScheduleError(f"{where}{exc}") from None
+    return flown
 
 
 def _cmd_simulate(args) -> int:
     problem = load_problem(args.file)
-    out = Path(args.out) if args.out is not None else Path("results") / problem.name
+    out = _results_folder(problem, args.out)
     schedule = Path(args.schedule) if args.schedule is not None else None
     status = run_simulate(problem, out=out, schedule=schedule)
     return 0 if status is None else int(status)
@@ -95,7 +228,8 @@ def _add_check(subparsers) -> None:
         description="Validate problem files; print each vehicle's masses, rocket-equation "
                     "velocity budget, burn times and liftoff thrust-to-weight. Exit status 2 "
                     "if any file has problems (all of them are listed on stderr).")
-    p.add_argument("files", nargs="+", metavar="FILE", help="YAML problem file")
+    p.add_argument("files", nargs="+", metavar="FILE", type=_path_argument,
+                   help="YAML problem file")
     p.set_defaults(handler=_cmd_check)
 
 
@@ -103,11 +237,13 @@ def _add_simulate(subparsers) -> None:
     p = subparsers.add_parser(
         "simulate", help="fly a given control schedule by forward integration",
         description="Forward-integrate the problem's vehicle under a control schedule "
-                    "(from --schedule, else the file's schedule section, else the default).")
-    p.add_argument("file", metavar="FILE", help="YAML problem file")
-    p.add_argument("--out", metavar="DIR", default=None,
+                    "(from --schedule, else the file's schedule section, else the default) "
+                    "and compare every limit of the file with its peak. Exit status 0 ok, "
+                    "1 impact or failure, 2 bad input, 3 a limit exceeded.")
+    p.add_argument("file", metavar="FILE", type=_path_argument, help="YAML problem file")
+    p.add_argument("--out", metavar="DIR", default=None, type=_path_argument,
                    help="results folder (default: results/<problem name>/)")
-    p.add_argument("--schedule", metavar="CSV", default=None,
+    p.add_argument("--schedule", metavar="CSV", default=None, type=_path_argument,
                    help="CSV control schedule to fly instead of the file's schedule")
     p.set_defaults(handler=_cmd_simulate)
 
@@ -121,15 +257,16 @@ def _cmd_solve(args) -> int:
     from ascentplan.pipeline import format_result, solve, write_outputs
     from ascentplan.staging.coupled import solve_with_split_comparison
 
-    out = Path(args.out) if args.out is not None else Path("results") / problem.name
+    out = _results_folder(problem, args.out)
+    _make_folder(out)
     if problem.mass_split is not None:
         points = args.split_map or problem.mass_split.map_points or None
         result = solve_with_split_comparison(problem, map_points=points, out_dir=out)
     else:
         result = solve(problem)
     write_outputs(result, out)
-    print(format_result(result))
-    print(f"results written to {out}/")
+    _show(format_result(result))
+    _show(f"results written to {out}/")
     return SOLVE_EXIT[result.status]
 
 
@@ -140,8 +277,8 @@ def _add_solve(subparsers) -> None:
                     "integration and report it as verified only when both agree. Exit status "
                     "0 optimal and verified, 1 optimal on the mesh but not verified, "
                     "2 bad problem file, 3 infeasible, 4 solver failure.")
-    p.add_argument("file", metavar="FILE", help="YAML problem file")
-    p.add_argument("--out", metavar="DIR", default=None,
+    p.add_argument("file", metavar="FILE", type=_path_argument, help="YAML problem file")
+    p.add_argument("--out", metavar="DIR", default=None, type=_path_argument,
                    help="results folder (default: results/<problem name>/)")
     p.add_argument("--split-map", type=int, default=0, metavar="N",
                    help="with a stage-mass split held at its liftoff mass: also map the "
@@ -160,15 +297,15 @@ def _cmd_split(args) -> int:
     try:
         split = split_for_vehicle(problem.vehicle, delta_v=args.delta_v, hold=hold)
     except StagingError as exc:
-        print(f"{args.file}: {exc}", file=sys.stderr)
+        _say(f"{args.file}: {exc}")
         return 3
     except ValueError as exc:  # a bad combination of options
-        print(f"{args.file}: {exc}", file=sys.stderr)
+        _say(f"{args.file}: {exc}")
         return EXIT_BAD_INPUT
-    print(f"Rocket-equation stage split of {problem.name} ({hold.replace('_', ' ')} held; "
+    _show(f"Rocket-equation stage split of {problem.name} ({hold.replace('_', ' ')} held; "
           "no gravity, drag or limits)")
-    print(format_split(split))
-    print(CAUTION)
+    _show(format_split(split))
+    _show(CAUTION)
     return 0
 
 
@@ -179,7 +316,7 @@ def _add_split(subparsers) -> None:
                     "vehicle in FILE: with the liftoff mass held (maximum ideal velocity) or "
                     "the payload held (minimum liftoff mass for --delta-v). Exit status 3 if "
                     "no split can reach the velocity.")
-    p.add_argument("file", metavar="FILE", help="YAML problem file")
+    p.add_argument("file", metavar="FILE", type=_path_argument, help="YAML problem file")
     p.add_argument("--hold", choices=("liftoff_mass", "payload"), default=None,
                    help="what stays fixed (default: the file's mass_split.hold, else "
                         "liftoff_mass)")
@@ -195,9 +332,9 @@ def _cmd_report(args) -> int:
     try:
         path = render_report_from_folder(Path(args.folder))
     except (FileNotFoundError, ValueError) as exc:
-        print(f"{args.folder}: {exc}", file=sys.stderr)
+        _say(f"{args.folder}: {exc}")
         return EXIT_BAD_INPUT
-    print(f"report written to {path}")
+    _show(f"report written to {path}")
     return 0
 
 
@@ -206,7 +343,7 @@ def _add_report(subparsers) -> None:
         "report", help="render report.html from an existing results folder",
         description="Render a self-contained HTML report from the summary.json and plots in "
                     "a results folder written by 'solve'.")
-    p.add_argument("folder", metavar="DIR", help="results folder")
+    p.add_argument("folder", metavar="DIR", type=_path_argument, help="results folder")
     p.set_defaults(handler=_cmd_report)
 
 
@@ -259,16 +396,36 @@ def _add_sweep(subparsers) -> None:
 _VERBS = (_add_check, _add_simulate, _add_solve, _add_split, _add_report, _add_sweep)
 
 
+class _Parser(argparse.ArgumentParser):
+    """An argument parser whose usage errors echo the arguments with control characters
+    escaped (argparse quotes some values with repr, not all: unrecognised arguments are
+    joined as typed)."""
+
+    def error(self, message):
+        self.print_usage(sys.stderr)
+        self.exit(EXIT_BAD_INPUT, f"{self.prog}: error: {printable(message)}\n")
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser with every verb registered."""
-    parser = argparse.ArgumentParser(
+    parser = _Parser(
         prog="ascentplan",
         description="Throttle, steering and stage-mass-split optimisation of rocket ascents "
-                    "(conceptual design; results are not flight-qualified).")
+                    "(conceptual design; results are not flight-qualified).",
+        epilog="Exit status: 0 success, 1 impact, failure or not verified, 2 bad input, "
+               "3 infeasible or a limit exceeded, 4 solver failure, 70 internal error, "
+               "130 interrupted, 141 output closed early.")
     parser.add_argument("--version", action="version", version=f"ascentplan {__version__}")
+    parser.add_argument("--debug", action="store_true",
+                        help=f"show the traceback of an internal error (or set "
+                             f"{DEBUG_VARIABLE}=1)")
     subparsers = parser.add_subparsers(dest="verb", metavar="VERB")
     for add in _VERBS:
         add(subparsers)
+    for verb in subparsers.choices.values():
+        # also after the verb, where it is usually typed when a run is repeated
+        verb.add_argument("--debug", dest="verb_debug", action="store_true",
+                          help="show the traceback of an internal error")
     return parser
 
 
@@ -283,8 +440,37 @@ def main(argv=None) -> int:
     Returns
     -------
     int
-        Exit status: 0 success, 2 bad problem file or usage, other values from the verb.
+        Exit status, one of :data:`EXIT_STATUSES`: 0 success, 2 bad input, 70 internal
+        error, 130 interrupted, 141 standard output closed early, other values from the
+        verb. No exception escapes but ``SystemExit`` raised by a verb.
     """
+    try:
+        status = _run(argv)
+        # what is still buffered meets a closed pipe here at the latest
+        sys.stdout.flush()
+    except BrokenPipeError:
+        _quiet_stdout()
+        return EXIT_BROKEN_PIPE
+    except KeyboardInterrupt:
+        _say("ascentplan: interrupted")
+        return EXIT_INTERRUPTED
+    return status
+
+
+def _quiet_stdout() -> None:
+    """Point stdout at the null device, so that the interpreter's final flush of what
+    is still buffered cannot fail again (the recipe of the Python documentation,
+    "Note on SIGPIPE" in the signal module)."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError, AttributeError):
+        # stdout is not a file descriptor (captured in a test): nothing to redirect
+        pass
+
+
+def _run(argv) -> int:
+    """Parse the arguments and run the verb; every error of the library ends here."""
     parser = build_parser()
     try:
         args = parser.parse_args(argv)
@@ -295,18 +481,48 @@ def main(argv=None) -> int:
         return exc.code if isinstance(exc.code, int) else EXIT_BAD_INPUT
     if getattr(args, "handler", None) is None:
         parser.print_usage(sys.stderr)
-        print("ascentplan: choose a verb, e.g. 'ascentplan check problem.yaml'",
-              file=sys.stderr)
+        _say("ascentplan: choose a verb, e.g. 'ascentplan check problem.yaml'")
         return EXIT_BAD_INPUT
+    debug = args.debug or getattr(args, "verb_debug", False) or _debug_from_environment()
     try:
-        return args.handler(args)
-    except ProblemError as exc:
-        _report(exc, getattr(args, "file", "ascentplan"))
+        status = args.handler(args)
+        return 0 if status is None else int(status)
+    except BrokenPipeError:
+        raise
+    except Exception as exc:  # noqa: BLE001 - the one place that turns errors into statuses
+        return _failure(exc, args, debug)
+
+
+def _debug_from_environment() -> bool:
+    return os.environ.get(DEBUG_VARIABLE, "").strip() not in ("", "0")
+
+
+def _failure(exc: Exception, args, debug: bool) -> int:
+    """One line on stderr for an error a verb raised, and its exit status."""
+    source = getattr(args, "file", None) or getattr(args, "folder", None) or "ascentplan"
+    if isinstance(exc, ProblemError):
+        _report(exc, source)
         return EXIT_BAD_INPUT
-    except yaml.YAMLError as exc:
-        print(f"{getattr(args, 'file', 'ascentplan')}: not valid YAML: {exc}", file=sys.stderr)
+    if isinstance(exc, InputError):
+        _say(f"{source}: {exc}")
         return EXIT_BAD_INPUT
-    except OSError as exc:
-        name = exc.filename or getattr(args, "file", "ascentplan")
-        print(f"{name}: {exc.strerror or exc}", file=sys.stderr)
+    if isinstance(exc, yaml.YAMLError):
+        _say(f"{source}: not valid YAML: {exc}")
         return EXIT_BAD_INPUT
+    if isinstance(exc, OSError):
+        # a file that cannot be read, a folder that cannot be written: the input's fault
+        _say(f"{exc.filename or source}: {exc.strerror or exc}")
+        return EXIT_BAD_INPUT
+    if debug:
+        try:
+            traceback.print_exception(exc, file=sys.stderr)
+        except (OSError, ValueError):
+            pass
+        hint = ""
+    else:
+        hint = f" (rerun with --debug, or {DEBUG_VARIABLE}=1, for the traceback)"
+    text = str(exc)
+    if len(text) > _MESSAGE_CHARS:
+        text = text[:_MESSAGE_CHARS] + "..."
+    _say(f"ascentplan: internal error: {type(exc).__name__}: {text}{hint}")
+    return EXIT_INTERNAL
