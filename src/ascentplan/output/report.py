@@ -35,6 +35,9 @@ _VERDICTS = {
                       "optimised, so there is nothing to verify."),
     "impact": ("bad", "Forward simulation of a given schedule: the vehicle fell back to the "
                       "ground. Not optimised."),
+    "limits_exceeded": ("bad", "Forward simulation of a given schedule: it exceeds a limit of "
+                               "the problem file beyond the verification tolerance (see "
+                               "Limits). Not optimised."),
 }
 
 #: summary keys rendered by a section of their own; any other key goes to "Other results"
