@@ -17,8 +17,8 @@ from ascentplan.problem.objectives import OBJECTIVE_SPECS, OBJECTIVES
 
 __all__ = ["LIMIT_UNITS", "LIMITS", "OBJECTIVES", "OBJECTIVE_SPECS", "SCHEMES", "Aerodynamics",
            "Launch", "Limits", "MassSplit", "Mesh", "Phase", "Planet", "Problem", "Stage",
-           "Target", "TimeSchedule", "Vehicle", "dry_mass_from_ratio", "phase_plan", "stack_masses",
-           "thrust_from_ratio"]
+           "SHUTDOWN_MODES", "Target", "TimeSchedule", "Vehicle", "dry_mass_from_ratio",
+           "phase_plan", "stack_masses", "thrust_from_ratio"]
 
 
 # --------------------------------------------------------------------------------------
@@ -49,6 +49,15 @@ def stack_masses(payload_mass, propellant_masses, dry_masses) -> tuple[list, lis
     ignition = [above[i] + propellant_masses[i] + dry_masses[i] for i in range(n)]
     burnout = [above[i] + dry_masses[i] for i in range(n)]
     return above, ignition, burnout
+
+
+#: how a stage's burn may end, by the name used in problem files (``shutdown:``)
+SHUTDOWN_MODES = {
+    "early": "the engine may be shut down before depletion; propellant left beyond the "
+             "reserve is reported as an unplanned residual",
+    "at_depletion": "the stage burns until only its reserve is left (a solid motor, or an "
+                    "engine without a commanded cut-off)",
+}
 
 
 @dataclass(frozen=True)
@@ -84,6 +93,14 @@ class Stage:
     thrust_to_weight : float or None
         Vacuum thrust over g0 times the stack mass at this stage's ignition; when given,
         a stage-mass split scales the thrust with the stack mass.
+    shutdown : str or None
+        ``"early"`` or ``"at_depletion"`` (:data:`SHUTDOWN_MODES`); None takes the
+        default rule of :attr:`may_shut_down_early`.
+    propellant_reserve : float
+        Propellant kept on board at burnout by design [kg], dropped with the stage.
+    propellant_reserve_fraction : float
+        A further reserve as a fraction of ``propellant_mass`` [-] (it follows the
+        propellant in a stage-mass split).
     """
 
     name: str
@@ -100,6 +117,9 @@ class Stage:
     propellant_min: float | None = None
     propellant_max: float | None = None
     thrust_to_weight: float | None = None
+    shutdown: str | None = None
+    propellant_reserve: float = 0.0
+    propellant_reserve_fraction: float = 0.0
 
     @property
     def mass(self) -> float:
@@ -127,6 +147,23 @@ class Stage:
         if self.structural_ratio is not None:
             return float(self.structural_ratio)
         return self.dry_mass / (self.dry_mass + self.propellant_mass)
+
+    @property
+    def may_shut_down_early(self) -> bool:
+        """Whether the burn may end before depletion.
+
+        As ``shutdown`` says; by default a throttleable stage (throttle min below max)
+        may, and a fixed-throttle stage may not: it burns to depletion, as a solid motor
+        or an engine without a commanded cut-off does.
+        """
+        if self.shutdown is None:
+            return self.throttle_min < self.throttle_max
+        return self.shutdown == "early"
+
+    @property
+    def reserve_mass(self) -> float:
+        """Propellant left on board at a planned burnout [kg]."""
+        return self.propellant_reserve + self.propellant_reserve_fraction * self.propellant_mass
 
 
 @dataclass(frozen=True)
@@ -156,6 +193,10 @@ class Vehicle:
     def burnout_mass(self, index: int) -> float:
         """Stack mass when stage ``index`` has burnt all its propellant [kg]."""
         return self._stack()[2][index]
+
+    def planned_burnout_mass(self, index: int) -> float:
+        """Stack mass when stage ``index`` has burnt all but its reserve [kg]."""
+        return self.burnout_mass(index) + self.stages[index].reserve_mass
 
     def with_propellant(self, propellant: list[float], payload_mass: float | None = None):
         """A copy with new propellant masses; dry masses follow the structural ratios

@@ -11,21 +11,28 @@ from dataclasses import replace
 from typing import Any
 
 from ascentplan.constants import G0
-from ascentplan.problem.model import Stage, Vehicle, dry_mass_from_ratio, thrust_from_ratio
+from ascentplan.problem.model import (
+    SHUTDOWN_MODES,
+    Stage,
+    Vehicle,
+    dry_mass_from_ratio,
+    thrust_from_ratio,
+)
 from ascentplan.problem.reader import _fmt, _join, _kind_of, _Reader
-from ascentplan.problem.units import show
+from ascentplan.problem.units import UnitError, show, to_si
 
 _VEHICLE_KEYS = ("payload_mass", "stages")
 _STAGE_KEYS = ("name", "propellant_mass", "dry_mass", "structural_ratio", "thrust_vacuum",
                "thrust_to_weight", "isp_vacuum", "exhaust_speed", "nozzle_exit_area",
                "throttle", "max_throttle_rate", "coast_after", "propellant_min",
-               "propellant_max")
+               "propellant_max", "shutdown", "propellant_reserve")
 _THROTTLE_KEYS = ("min", "max")
 #: the fields of a stage as read, passed on to :class:`Stage` unchanged
 _STAGE_FIELDS = ("name", "propellant_mass", "dry_mass", "thrust_vacuum", "exhaust_speed",
                  "nozzle_exit_area", "throttle_min", "throttle_max", "max_throttle_rate",
                  "coast_after", "structural_ratio", "propellant_min", "propellant_max",
-                 "thrust_to_weight")
+                 "thrust_to_weight", "shutdown", "propellant_reserve",
+                 "propellant_reserve_fraction")
 #: a thrust given both directly and as thrust-to-weight must agree to this fraction
 _THRUST_AGREEMENT = 0.005
 
@@ -73,6 +80,11 @@ def _read_stage(r: _Reader, raw: Any, path: str, index: int, last: bool) -> dict
                 f"has no effect on the last stage, got {show(raw['coast_after'])}; a coast "
                 f"after final burnout comes from objective: max_apogee")
     s.update(_read_propellant_range(r, raw, path, s["propellant_mass"]))
+    # absent: the default rule of Stage.may_shut_down_early (by the throttle range)
+    s["shutdown"] = (None if raw.get("shutdown") is None else
+                     r.choice(raw, "shutdown", path, tuple(SHUTDOWN_MODES), None,
+                              "shutdown mode"))
+    s.update(_read_reserve(r, raw, path, s["propellant_mass"]))
     if len(r.messages) > before:
         return None
     return s
@@ -151,6 +163,27 @@ def _read_propellant_range(r: _Reader, raw: dict, path: str,
                 f"must lie within propellant_min..propellant_max, got "
                 f"{show(raw['propellant_mass'])}")
     return {"propellant_min": pmin, "propellant_max": pmax}
+
+
+def _read_reserve(r: _Reader, raw: dict, path: str, propellant: float | None) -> dict:
+    """The propellant reserve: a mass [kg], or with ``%`` a fraction of the propellant."""
+    value = raw.get("propellant_reserve")
+    if value is None:
+        return {"propellant_reserve": 0.0, "propellant_reserve_fraction": 0.0}
+    p = _join(path, "propellant_reserve")
+    if isinstance(value, str) and "%" in value:
+        try:
+            fraction = to_si(value, "", p)
+        except UnitError as exc:
+            r.unit_error(exc)
+            return {}
+        if not 0.0 <= fraction < 1.0:
+            r.error(p, f"must lie from 0 % to below 100 % of the propellant, got {show(value)}")
+        return {"propellant_reserve": 0.0, "propellant_reserve_fraction": fraction}
+    mass = r.quantity(raw, "propellant_reserve", path, "kg", ge=0.0)
+    if mass is not None and propellant is not None and mass >= propellant:
+        r.error(p, f"must be less than the propellant mass, got {show(value)}")
+    return {"propellant_reserve": mass, "propellant_reserve_fraction": 0.0}
 
 
 def _build_vehicle(r: _Reader, payload: float, stages: list[dict]) -> Vehicle | None:
