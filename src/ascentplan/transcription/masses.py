@@ -30,6 +30,8 @@ class StackMasses:
     propellant, dry, above, ignition, burnout, thrust : list of symbol
         Per stage: propellant and dry mass, the mass it carries, the stack mass at its
         ignition and at its burnout, and its vacuum thrust.
+    planned_burnout : list of symbol
+        Per stage, the stack mass at its burnout with its propellant reserve on board.
     """
 
     payload: object
@@ -39,6 +41,7 @@ class StackMasses:
     ignition: list
     burnout: list
     thrust: list
+    planned_burnout: list
 
 
 def payload_is_free(problem: Problem) -> bool:
@@ -50,11 +53,13 @@ def mass_parameter_sizes(problem: Problem) -> list[tuple[str, int]]:
     """Names and lengths of the mass and thrust parameters of the NLP.
 
     ``structure`` is per stage the dry mass, or in a stage-mass split the structural ratio
-    (the dry mass then follows the propellant); ``liftoff_mass`` is the one a split holds.
+    (the dry mass then follows the propellant); ``liftoff_mass`` is the one a split holds;
+    ``reserve`` and ``reserve_fraction`` are each stage's propellant reserve [kg] and
+    the part of it that is a fraction of the propellant [-].
     """
     n = len(problem.vehicle.stages)
     return [("payload", 1), ("propellant", n), ("structure", n), ("thrust", n),
-            ("liftoff_mass", 1)]
+            ("liftoff_mass", 1), ("reserve", n), ("reserve_fraction", n)]
 
 
 def mass_parameter_values(problem: Problem, split: bool) -> dict:
@@ -71,7 +76,9 @@ def mass_parameter_values(problem: Problem, split: bool) -> dict:
             "propellant": [s.propellant_mass for s in veh.stages],
             "structure": structure,
             "thrust": [s.thrust_vacuum for s in veh.stages],
-            "liftoff_mass": held}
+            "liftoff_mass": held,
+            "reserve": [s.propellant_reserve for s in veh.stages],
+            "reserve_fraction": [s.propellant_reserve_fraction for s in veh.stages]}
 
 
 def _propellant(problem: Problem, variables, params, mass_scale: float) -> list:
@@ -127,5 +134,10 @@ def add_stack_masses(problem: Problem, variables, params, mass_scale: float) -> 
             thrust.append(thrust_from_ratio(stage.thrust_to_weight, ignition[i]))
         else:
             thrust.append(written)
+    # the reserve stays on board: a planned burnout leaves it with the stage's dry mass
+    planned = [b + kg + f * p for b, kg, f, p in zip(burnout, params.entries("reserve"),
+                                                     params.entries("reserve_fraction"),
+                                                     propellant)]
     return StackMasses(payload=payload, propellant=propellant, dry=dry, above=above,
-                       ignition=ignition, burnout=burnout, thrust=thrust)
+                       ignition=ignition, burnout=burnout, thrust=thrust,
+                       planned_burnout=planned)

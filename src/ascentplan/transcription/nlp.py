@@ -29,6 +29,7 @@ from ascentplan.models import dynamics
 from ascentplan.problem.model import Problem, phase_plan
 from ascentplan.problem.objectives import OBJECTIVE_SPECS, Outcome
 from ascentplan.transcription.collocation import COLLOCATION_SCHEMES
+from ascentplan.transcription.elastic import OBJECTIVE_WEIGHT, HardRows, SoftRows
 from ascentplan.transcription.layout import ConstraintRows, ParameterLayout, VariableLayout
 from ascentplan.transcription.masses import (
     StackMasses,
@@ -47,8 +48,8 @@ from ascentplan.transcription.phases import (
 )
 from ascentplan.transcription.solution import Guess, NLPSolution
 
-__all__ = ["ACCELERATE_MAX_VARIABLES", "IPOPT_OPTIONS", "WARM_START_OPTIONS", "AscentNLP",
-           "Guess", "NLPSolution", "nodes_for_phase", "structure_key"]
+__all__ = ["ACCELERATE_MAX_VARIABLES", "ELASTIC_OPTIONS", "IPOPT_OPTIONS", "WARM_START_OPTIONS",
+           "AscentNLP", "Guess", "NLPSolution", "nodes_for_phase", "structure_key"]
 
 #: IPOPT options: MUMPS (shipped with CasADi), exact Hessian, and the adaptive barrier
 #: update, which on the scaled examples took 20-35 % fewer iterations than the monotone
@@ -66,6 +67,13 @@ IPOPT_OPTIONS = {
     "ipopt.sb": "yes",
     "print_time": False,
     "record_time": True,
+}
+
+#: IPOPT options of the elastic form (see :mod:`ascentplan.transcription.elastic`): it
+#: only explains a failure, so it is bounded in iterations and time
+ELASTIC_OPTIONS = {
+    "ipopt.max_iter": 200,
+    "ipopt.max_wall_time": 30.0,
 }
 
 #: IPOPT options added for a warm start: without warm_start_init_point IPOPT ignores the
@@ -87,7 +95,7 @@ def structure_key(problem: Problem) -> tuple:
     stages = tuple(
         (s.exhaust_speed, s.nozzle_exit_area, s.throttle_min, s.throttle_max,
          s.max_throttle_rate, s.coast_after, s.structural_ratio, s.thrust_to_weight,
-         s.propellant_min, s.propellant_max)
+         s.propellant_min, s.propellant_max, s.may_shut_down_early)
         for s in problem.vehicle.stages)
     return (problem.dynamics, problem.planet, problem.atmosphere, problem.gravity,
             problem.aerodynamics, problem.launch, stages, tuple(problem.limits.active_names()),
@@ -122,10 +130,14 @@ class AscentNLP:
         Overrides ``problem.mesh.nodes_per_phase``.
     symbolic : str
         ``"MX"`` or ``"SX"``, the CasADi graph of the NLP.
+    elastic : bool
+        Build the elastic form instead: every target and path limit may be missed at an
+        L1 cost (:mod:`ascentplan.transcription.elastic`), which tells which must give
+        when the NLP itself is infeasible.
     """
 
     def __init__(self, problem: Problem, scales: dict, nodes_per_phase: int | None = None,
-                 symbolic: str = "MX"):
+                 symbolic: str = "MX", elastic: bool = False):
         t0 = _time.perf_counter()
         if symbolic not in ("MX", "SX"):
             raise ValueError(f"symbolic: must be 'MX' or 'SX', got {symbolic!r}")
@@ -146,6 +158,7 @@ class AscentNLP:
         self.duration_scale = np.array(scales["durations"], dtype=float)
         self.mass_scale = float(scales["mass"])
         self._sym = ca.MX if symbolic == "MX" else ca.SX
+        self.elastic = elastic
         self._build()
         self.build_time = _time.perf_counter() - t0
 
@@ -155,6 +168,8 @@ class AscentNLP:
         self.parameters = ParameterLayout(self._sym, sizes)
         self.variables = VariableLayout(self._sym)
         self.rows = ConstraintRows()
+        self.conditions = (SoftRows(self.rows, self.variables) if self.elastic
+                           else HardRows(self.rows))
         masses = add_stack_masses(self.problem, self.variables, self.parameters,
                                   self.mass_scale)
         self.phase_vars: list[_PhaseSymbols] = []
@@ -176,6 +191,10 @@ class AscentNLP:
             return self.mass_scale
         k = carrier_state(self.kind, quantity)
         return None if k is None else float(self.x_scale[k])
+
+    def quantity_scale(self, quantity: str) -> float | None:
+        """Variable scale [SI] that the rows of ``quantity`` are divided by, or None."""
+        return self._scale_of(quantity)
 
     def _physical_end(self, j: int):
         """Physical state at the last node of phase ``j``."""
@@ -242,7 +261,7 @@ class AscentNLP:
             values = Q[row, 1:] if j == 0 and not spec.at_liftoff else Q[row, :]
             expr, lower, upper = spec.scaled_constraint(
                 values, self.parameters.scalar(spec.name), self._scale_of(spec.quantity))
-            self.rows.add(spec.name, expr, lower, upper)
+            self.conditions.limit(spec.name, j, expr, lower, upper)
 
     def _add_throttle_rate(self, j: int, stage, U, h) -> None:
         """The stage's throttle-rate limit on a powered phase, linear in the variables."""
@@ -279,14 +298,16 @@ class AscentNLP:
         self.rows.add(f"link{j}_mass", (start_mass - end_mass) / self.mass_scale, 0.0, 0.0)
 
     def _add_phase_end(self, j: int, masses: StackMasses) -> None:
-        """A stage cannot burn past its propellant; a coast to apogee ends climbing at zero."""
+        """A stage burns at most down to its reserve, and exactly so when it may not shut
+        down early; a coast to apogee ends climbing at zero."""
         ph = self.phases[j]
         sym = self.phase_vars[j]
         if last_of_stage(self.phases, j):
             m = self.kind.index("mass")
+            early = self.problem.vehicle.stages[ph.stage].may_shut_down_early
             self.rows.add(f"burnout_mass{ph.stage}",
-                          (sym.physical[m, -1] - masses.burnout[ph.stage]) / self.mass_scale,
-                          0.0, np.inf)
+                          (sym.physical[m, -1] - masses.planned_burnout[ph.stage])
+                          / self.mass_scale, 0.0, np.inf if early else 0.0)
         if ph.ends_at_apogee:
             k = carrier_state(self.kind, "radial_speed")
             zero = (0.0 - self.x_offset[k]) / self.x_scale[k]
@@ -297,29 +318,27 @@ class AscentNLP:
         t = self.problem.target
         planet = self.problem.planet
         kind = self.kind
-        add = self.rows.add
+        add = self.conditions.target
         altitude_scale, speed_scale = self._scale_of("altitude"), self._scale_of("speed")
         if t.circular_orbit_altitude is not None:
             rt = planet.radius + t.circular_orbit_altitude
             v_circular = np.sqrt(planet.gravitational_parameter / rt)
-            add("target_altitude", (kind.radius(xb, planet) - rt) / altitude_scale, 0.0, 0.0)
+            add("target_altitude", (kind.radius(xb, planet) - rt) / altitude_scale)
             add("target_flight_path_angle",
-                kind.radial_speed(xb) / self._scale_of("radial_speed"), 0.0, 0.0)
-            add("target_speed", (kind.horizontal_speed(xb) - v_circular) / speed_scale,
-                0.0, 0.0)
+                kind.radial_speed(xb) / self._scale_of("radial_speed"))
+            add("target_speed", (kind.horizontal_speed(xb) - v_circular) / speed_scale)
             return
         if t.altitude is not None:
-            add("target_altitude", (kind.altitude(xb, planet) - t.altitude) / altitude_scale,
-                0.0, 0.0)
+            add("target_altitude", (kind.altitude(xb, planet) - t.altitude) / altitude_scale)
         if t.speed is not None:
-            add("target_speed", (kind.speed(xb) - t.speed) / speed_scale, 0.0, 0.0)
+            add("target_speed", (kind.speed(xb) - t.speed) / speed_scale)
         if t.flight_path_angle is not None:
             gam = t.flight_path_angle
             # v_r cos(gamma) - v_h sin(gamma): zero at the angle, and smooth where
             # an atan2 of the speeds would not be
             add("target_flight_path_angle",
                 (kind.radial_speed(xb) * np.cos(gam) - kind.horizontal_speed(xb) * np.sin(gam))
-                / speed_scale, 0.0, 0.0)
+                / speed_scale)
 
     def _set_objective(self, xb, masses: StackMasses) -> None:
         """The objective of the problem's :data:`OBJECTIVE_SPECS` entry, scaled to order one."""
@@ -342,6 +361,9 @@ class AscentNLP:
         self.objective_sense = spec.sense  # +1 maximise, -1 minimise
         # IPOPT minimises f
         self.f = -spec.sense * self.objective_expr / self.objective_scale
+        if self.elastic:
+            # meet as much as can be met first; the objective only picks among the rest
+            self.f = self.conditions.penalty + OBJECTIVE_WEIGHT * self.f
 
     def _finish(self, masses: StackMasses) -> None:
         """The vectors and bounds handed to IPOPT, the solver, and the helper functions."""
@@ -355,7 +377,9 @@ class AscentNLP:
         self.n_params = self.parameters.size
         self._limit_rows = {name: self.rows.indices(name) for name in self.limit_names}
         self._nlp = {"x": self.w, "p": self.P, "f": self.f, "g": self.g}
-        self.solver = ca.nlpsol("ascent", "ipopt", self._nlp, IPOPT_OPTIONS)
+        self.conditions.finish(self.w, self.P)
+        self._options = {**IPOPT_OPTIONS, **ELASTIC_OPTIONS} if self.elastic else IPOPT_OPTIONS
+        self.solver = ca.nlpsol("ascent", "ipopt", self._nlp, self._options)
         self.warm_solver = None
         self._derivative_options = {}
         self.accelerated = False
@@ -386,7 +410,7 @@ class AscentNLP:
             "jac_g": self.solver.get_function("nlp_jac_g").expand(),
         }
         self.solver = ca.nlpsol("ascent_expanded", "ipopt", self._nlp,
-                                {**IPOPT_OPTIONS, **self._derivative_options})
+                                {**self._options, **self._derivative_options})
         self.warm_solver = None
         self.accelerated = True
         self.accelerate_time = _time.perf_counter() - t0
@@ -408,6 +432,7 @@ class AscentNLP:
             values["split_scale"] = 1.0
         if "propellant" in self.variables:
             values["propellant"] = np.asarray(guess.propellant, float) / self.mass_scale
+        self.conditions.fill(values)
         for j in range(len(self.phases)):
             X = (np.asarray(guess.states[j]) - self.x_offset[:, None]) / self.x_scale[:, None]
             values[f"x{j}"] = X
@@ -438,14 +463,14 @@ class AscentNLP:
             return self.solver, {}
         if self.warm_solver is None:
             self.warm_solver = ca.nlpsol("ascent_warm", "ipopt", self._nlp,
-                                         {**IPOPT_OPTIONS, **WARM_START_OPTIONS,
+                                         {**self._options, **WARM_START_OPTIONS,
                                           **self._derivative_options})
         return self.warm_solver, {"lam_x0": m["lam_x"], "lam_g0": m["lam_g"]}
 
     def solve(self, problem: Problem, guess: Guess, warm: bool = False) -> NLPSolution:
         """Solve for ``problem`` (same structure) from ``guess``; never raises on failure."""
         pvec = self.parameter_vector(problem)
-        w0 = self.pack_guess(guess)
+        w0 = self.conditions.seed(self.pack_guess(guess), pvec)
         solver, multipliers = self._solver_for(guess, warm, w0.size)
         t0 = _time.perf_counter()
         sol = solver(x0=w0, p=pvec, lbx=self.lbw, ubx=self.ubw, lbg=self.lbg, ubg=self.ubg,
@@ -476,4 +501,5 @@ class AscentNLP:
             shadow_prices=shadow, constraint_violation=viol,
             multipliers={"lam_x": lam_x, "lam_g": lam_g, "lam_p": lam_p},
             binding=NLPSolution.binding_of(self._limit_rows, gval, self.lbg, self.ubg, lam_g,
-                                           success))
+                                           success),
+            slacks=self.conditions.read(w, pvec))

@@ -73,6 +73,8 @@ class NLPSolution:
     constraint_violation: float
     multipliers: dict = field(default_factory=dict)
     binding: list = field(default_factory=list)
+    #: the elastic form only: per condition its ``slack`` and the ``phases`` that need it
+    slacks: dict = field(default_factory=dict)
 
     @staticmethod
     def status_of(return_status: str, success: bool, violation: float) -> str:
