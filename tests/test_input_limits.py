@@ -13,7 +13,7 @@ from pathlib import Path
 import pytest
 import yaml
 
-from ascentplan.problem.loader import ProblemError, load_problem, problem_from_dict
+from ascentplan.problem.loader import ProblemError, load_problem
 from ascentplan.problem.screen import (
     MAX_DEPTH,
     MAX_ENTRIES,
@@ -217,7 +217,8 @@ def test_long_table_states_the_maximum():
 
 def test_long_text_is_refused():
     (message,) = _refusal(_edited(*S0, "name", "x" * (MAX_TEXT + 1)))
-    assert message == f"vehicle.stages[0].name: is {MAX_TEXT + 1} characters long; at most {MAX_TEXT}"
+    assert message == (f"vehicle.stages[0].name: is {MAX_TEXT + 1} characters long; at most "
+                       f"{MAX_TEXT}")
 
 
 def test_self_referring_dict_is_refused():
