@@ -8,7 +8,7 @@ from random names and operators, nested lists and mappings, long text and contro
 characters, or with keys removed or added; some go through a YAML file, the rest
 straight to ``problem_from_dict``.
 
-The default run tries a few hundred documents (about 20 s). The long run tries 10,000
+The default run tries 600 documents and 1,500 unit texts (10 to 25 s). The long run tries 10,000
 and more::
 
     ASCENTPLAN_FUZZ_EXAMPLES=10000 MPLBACKEND=Agg python -m pytest -q -p no:cacheprovider \
@@ -158,7 +158,7 @@ _COMMON = dict(deadline=int(TIME_BOUND * 1000), database=None,
                                       HealthCheck.function_scoped_fixture])
 
 
-@settings(max_examples=400, **_COMMON)
+@settings(max_examples=600, **_COMMON)
 @given(data=documents(), via_file=st.booleans())
 def test_loader_returns_a_problem_or_a_problem_error(data, via_file, tmp_path):
     _check_one(data, via_file, tmp_path)
