@@ -391,6 +391,8 @@ def format_result(result: Result) -> str:
     for st in s["stages"]:
         lines.append(f"                {st['name']:<16}{st['propellant_mass_kg']:>15.1f}"
                      f"{st['dry_mass_kg']:>11.1f}{st['burn_time_s']:>11.2f}")
+    lines += _propellant_lines(s["stages"])
+    lines += _infeasibility_lines(s.get("infeasibility"))
     if s.get("losses_m_s"):
         lo = s["losses_m_s"]
         lines.append("  losses [m/s]  " + ", ".join(f"{k} {val:.1f}" for k, val in lo.items()))
@@ -412,6 +414,37 @@ def format_result(result: Result) -> str:
                  f"{sv['nodes']} nodes per phase, {sv['mesh_refinements']} refinement(s)")
     lines.append(CAUTION)
     return "\n".join(lines)
+
+
+def _propellant_lines(stages: list[dict]) -> list[str]:
+    """Per stage its propellant, when any stage keeps a reserve or leaves a residual."""
+    blocks = [st.get("propellant") for st in stages]
+    if not any(b and (b["reserve_kg"] > 0 or b["unplanned_residual_reported"])
+               for b in blocks):
+        return []
+    lines = ["  propellant    name            loaded [kg]  burnt [kg]  reserve [kg]"
+             "  unplanned residual"]
+    for st, b in zip(stages, blocks):
+        if b is None:
+            continue
+        residual = (f"{b['unplanned_residual_kg']:.1f} kg ({b['unplanned_residual_percent']:.1f} %)"
+                    if b["unplanned_residual_reported"] else "none")
+        lines.append(f"                {st['name']:<16}{b['loaded_kg']:>11.1f}"
+                     f"{b['burnt_kg']:>12.1f}{b['reserve_kg']:>14.1f}  {residual}")
+    return lines
+
+
+def _infeasibility_lines(block: dict | None) -> list[str]:
+    """The conditions that must give for an infeasible problem to have a schedule."""
+    if not block or not block["conditions"]:
+        return []
+    lines = ["  must give     condition                  as written      needed"]
+    for c in block["conditions"]:
+        lines.append(f"                {c['name']:<24}{c['value']:>11.4g} {c['unit']:<4}"
+                     f"{c['required']:>10.4g} {c['unit']}")
+    if not block["converged"]:
+        lines.append("                (rough: the diagnosis did not converge)")
+    return lines
 
 
 def write_outputs(result: Result, out_dir) -> list:

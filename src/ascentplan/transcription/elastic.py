@@ -24,7 +24,7 @@ import numpy as np
 #: weight of the problem's own objective in the elastic objective: small, so that a
 #: slack is zero wherever the condition can be met, yet enough to pick one schedule
 #: among the many that meet the rest
-OBJECTIVE_WEIGHT = 1e-3
+OBJECTIVE_WEIGHT = 1e-5
 
 
 class HardRows:
