@@ -128,7 +128,8 @@ def test_vertical_budget_closes_with_constant_gravity():
     traj = simulate(problem)
     assert traj.status == "ok", traj.message
     losses = traj.losses
-    # budget identity, 1e-7 of the ideal increment (common practice: Newton's second law along the velocity)
+    # budget identity, 1e-7 of the ideal increment (common practice: Newton's second law
+    # along the velocity)
     assert abs(_closure(losses)) < 1e-7 * losses["ideal"]
     # Tsiolkovsky: both stages burn out
     assert losses["ideal"] == pytest.approx(_tsiolkovsky_sum(problem.vehicle), rel=1e-8)

@@ -52,8 +52,8 @@ STILL_EARTH = Planet("still earth", EARTH.radius, MU, rotation_rate=0.0)
 NO_DRAG = Aerodynamics(reference_area=1.0, drag=ConstantDrag(0.3))
 
 # G. F. Simmons, Differential Equations with Applications and Historical Notes
-# (McGraw-Hill 1972), ch. 2, miscellaneous problem 29, a case computed from its formula: u = 2000 m/s, m0 = 1000 kg, 800 kg of
-# propellant burnt at 10 kg/s, g = 9.81 m/s^2
+# (McGraw-Hill 1972), ch. 2, miscellaneous problem 29, a case computed from its formula:
+# u = 2000 m/s, m0 = 1000 kg, 800 kg of propellant burnt at 10 kg/s, g = 9.81 m/s^2
 U, M0, MP, ALPHA, G = 2000.0, 1000.0, 800.0, 10.0, 9.81
 
 
@@ -398,7 +398,8 @@ def test_summary_matches_trajectory(tmp_path):
     json.dumps(summary, allow_nan=False)
     assert summary["burnout"]["time_s"] == pytest.approx(80.0, rel=1e-9)
     assert summary["burnout"]["mass_kg"] == pytest.approx(200.0, rel=1e-12)
-    # the budget residual is integration error only (the identity is Newton's second law projected on the velocity; common practice)
+    # the budget residual is integration error only (the identity is Newton's second law
+    # projected on the velocity; common practice)
     assert abs(summary["losses_m_s"]["residual"]) < 1e-7 * summary["losses_m_s"]["ideal"]
     peak = summary["peaks"]["dynamic_pressure"]
     assert peak["value_Pa"] >= np.max(traj.quantities["dynamic_pressure"])

@@ -11,8 +11,8 @@ from pathlib import Path
 import pytest
 
 from ascentplan.cli import main
-from ascentplan.problem.loader import load_problem
 from ascentplan.pipeline import solve
+from ascentplan.problem.loader import load_problem
 
 PROBLEMS = Path(__file__).resolve().parent.parent / "problems"
 
