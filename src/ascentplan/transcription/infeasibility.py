@@ -122,9 +122,8 @@ class Infeasibility:
         """The verdict in words, amounts in user units."""
         if not self.conditions:
             if self.converged:
-                return ("yet a schedule that meets every target and limit exists (found "
-                        "from where the solver stopped): the failure is numerical; try more "
-                        "nodes per phase")
+                return ("yet the elastic re-solve found a schedule that meets every target "
+                        "and limit: the failure is numerical; try more nodes per phase")
             return f"the diagnosis did not converge either (IPOPT: {self.return_status})"
         parts = [c.text() for c in self.conditions]
         targets = any(c.kind == "target" for c in self.conditions)
