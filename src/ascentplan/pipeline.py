@@ -393,7 +393,9 @@ def format_result(result: Result) -> str:
     for st in s["stages"]:
         lines.append(f"                {st['name']:<16}{st['propellant_mass_kg']:>15.1f}"
                      f"{st['dry_mass_kg']:>11.1f}{st['burn_time_s']:>11.2f}")
-    lines += _propellant_lines(s["stages"])
+    if s["status"] in ("optimal", "not_verified"):
+        # where the solver stopped short of a flight, its propellant figures mean little
+        lines += _propellant_lines(s["stages"])
     lines += _infeasibility_lines(s.get("infeasibility"))
     if s.get("losses_m_s"):
         lo = s["losses_m_s"]
