@@ -61,7 +61,8 @@ def _vertical_problem(limits: Limits) -> Problem:
 def _planar_problem(limits: Limits) -> Problem:
     first = Stage("first", 24e3, 2.4e3, 520e3, 296.0 * G0, nozzle_exit_area=0.6,
                   throttle_min=0.5)
-    second = Stage("second", 6e3, 0.7e3, 110e3, 336.0 * G0)
+    # a liquid upper stage at fixed thrust, cut off by guidance before depletion
+    second = Stage("second", 6e3, 0.7e3, 110e3, 336.0 * G0, shutdown="early")
     return Problem(name="demo-two-stage", dynamics="planar",
                    vehicle=Vehicle(500.0, (first, second)), planet=EARTH,
                    atmosphere=ExponentialAtmosphere(),
