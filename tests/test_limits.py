@@ -4,10 +4,9 @@ against finite differences, monotonicity in the bound, and the infeasible case."
 from __future__ import annotations
 
 import pytest
+from cases import vertical_q_problem
 
 from ascentplan.pipeline import solve
-
-from cases import vertical_q_problem
 
 Q_MAX = 30e3  # [Pa]
 
@@ -30,8 +29,8 @@ def test_active_dynamic_pressure_limit_is_verified(free_result, limited_result):
     assert r.status == "optimal", r.message
     (lim,) = r.limits()
     assert lim["active"]
-    # the documented verification tolerances (ascentplan.verify): replayed peak within bound + 0.5 %, burnout
-    # speed within max(0.5 m/s, 0.05 %)
+    # the documented verification tolerances (ascentplan.replay.verify): replayed peak within
+    # bound + 0.5 %, burnout speed within max(0.5 m/s, 0.05 %)
     assert lim["peak"] * 1000 <= Q_MAX * 1.005
     speed = r.burnout()["speed_m_s"]
     assert abs(r.verification.burnout_speed_difference_m_s) <= max(0.5, 5e-4 * speed)
@@ -70,8 +69,8 @@ def test_relaxing_never_lowers_the_optimum(free_result, limited_result):
 def test_expanded_derivatives_give_the_same_optimum(limited_result):
     # the SX-expanded Hessian and Jacobian are the same functions as the MX ones
     # (CasADi's expansion), so a re-solve lands on the same optimum to solver tolerance
-    from ascentplan.transcription.nlp import AscentNLP
     from ascentplan.pipeline import first_guess
+    from ascentplan.transcription.nlp import AscentNLP
 
     problem = vertical_q_problem(max_q=Q_MAX)
     guess, scales = first_guess(problem, problem.mesh.nodes_per_phase)

@@ -8,14 +8,13 @@ from dataclasses import replace
 
 import numpy as np
 import pytest
+from cases import vertical_q_problem
 
 from ascentplan.models.aero import ConstantDrag
 from ascentplan.models.atmosphere import Vacuum
 from ascentplan.models.gravity import ConstantGravity
 from ascentplan.pipeline import solve
 from ascentplan.problem.model import Aerodynamics, Mesh, Planet, Problem, Stage, Target, Vehicle
-
-from cases import vertical_q_problem
 
 
 def test_minimum_propellant_to_a_speed_is_the_rocket_equation():

@@ -5,11 +5,10 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from cases import flat_vacuum_problem
 
 from ascentplan.pipeline import solve
 from ascentplan.transcription.collocation import COLLOCATION_SCHEMES
-
-from cases import flat_vacuum_problem
 
 
 def test_scheme_tableaux():
