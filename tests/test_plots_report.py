@@ -10,6 +10,7 @@ import shutil
 import struct
 from dataclasses import replace
 from html.parser import HTMLParser
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -27,8 +28,9 @@ from ascentplan.output.plots import (
     plot_trajectory,
     result_nodes,
 )
-from ascentplan.output.report import render_report_from_folder, write_report
+from ascentplan.output.report import render_html, render_report_from_folder, write_report
 from ascentplan.pipeline import solve
+from ascentplan.problem.loader import load_problem
 from ascentplan.problem.model import (
     Aerodynamics,
     Launch,
@@ -44,6 +46,7 @@ from ascentplan.problem.model import (
 from ascentplan.replay.simulate import simulate
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
+PROBLEMS = Path(__file__).resolve().parent.parent / "problems"
 EARTH = Planet("earth", **PLANETS["earth"])
 
 
@@ -342,3 +345,107 @@ def test_report_from_simulation_summary(vertical_flight, vertical_plots, tmp_pat
 def test_render_report_needs_summary(tmp_path):
     with pytest.raises(FileNotFoundError, match="summary.json"):
         render_report_from_folder(tmp_path)
+
+
+def _sounding_rocket(**stage_changes) -> Problem:
+    """The example sounding rocket on a coarse mesh, its one stage changed as given."""
+    problem = load_problem(PROBLEMS / "sounding_rocket.yaml")
+    stage = replace(problem.vehicle.stages[0], **stage_changes)
+    return replace(problem, vehicle=replace(problem.vehicle, stages=(stage,)),
+                   mesh=replace(problem.mesh, nodes_per_phase=20, max_refinements=1))
+
+
+def _between(page: str, first: str, second: str) -> str:
+    """The page from ``first`` (found once) up to the next ``second``."""
+    assert page.count(first) == 1
+    start = page.index(first)
+    return page[start:page.index(second, start)]
+
+
+def test_report_shows_each_stage_propellant_and_flags_an_unplanned_residual(tmp_path):
+    # at its 40 % minimum throttle the motor passes 4 g0 near burnout, so the best flight
+    # shuts it down early and drops propellant unburnt; a 25 kg reserve is kept by design
+    problem = _sounding_rocket(propellant_reserve=25.0).with_limits(max_axial_acceleration=4.0)
+    result = solve(problem)
+    assert result.status == "optimal", result.message
+    block = result.summary()["stages"][0]["propellant"]
+    assert block["unplanned_residual_reported"]
+    page = write_report(result.summary(), tmp_path, plots=[]).read_text(encoding="utf-8")
+    _parse(page)
+    # next to the stage masses, before the velocity budget
+    section = _between(page, "<h2>Stages</h2>", "<h2>Velocity-loss budget</h2>")
+    table = _between(section, "<h2>Propellant</h2>", "</section>")
+    for header in ("loaded [kg]", "burnt [kg]", "reserve [kg]", "unplanned residual [kg]",
+                   "unplanned residual [% of loaded]", "may shut down early"):
+        assert f"<th>{header}</th>" in table
+    cells = [f"{block[k]:,.1f}" for k in ("loaded_kg", "burnt_kg", "reserve_kg",
+                                          "unplanned_residual_kg")]
+    assert cells[0] == "850.0" and cells[2] == "25.0"
+    row = '<tr class="flag"><td>motor</td>' + "".join(
+        f'<td class="num">{c}</td>' for c in cells) + (
+        f'<td class="num">{block["unplanned_residual_percent"]:,.2f}</td><td>yes</td></tr>')
+    assert row in table
+    assert "an unplanned residual is propellant dropped unburnt at staging" in table
+    # without the residual the row is plain, and a gram of rounding reads 0.0, not -0.0
+    quiet = result.summary()
+    quiet["stages"][0]["propellant"].update(unplanned_residual_kg=-1.2e-5,
+                                            unplanned_residual_percent=-1.4e-6,
+                                            unplanned_residual_reported=False,
+                                            shutdown="at_depletion")
+    page = write_report(quiet, tmp_path, plots=[]).read_text(encoding="utf-8")
+    assert 'class="flag"' not in page
+    assert ('<td class="num">0.0</td><td class="num">0.00</td>'
+            "<td>no: burns to depletion</td>") in page
+
+
+def test_report_says_what_must_give_for_an_infeasible_result(tmp_path):
+    # a motor at fixed full throttle burns to depletion and passes 5 g0 on the way: no
+    # schedule keeps the limit, and the report names the limit, the bound and the stage
+    problem = _sounding_rocket(throttle_min=1.0, throttle_max=1.0)
+    problem = replace(problem, limits=replace(problem.limits, max_dynamic_pressure=None,
+                                              max_axial_acceleration=5.0))
+    result = solve(problem)
+    assert result.status == "infeasible", result.message
+    summary = result.summary()
+    block = summary["infeasibility"]
+    [condition] = block["conditions"]
+    page = write_report(summary, tmp_path, plots=[]).read_text(encoding="utf-8")
+    _parse(page)
+    # right after the verdict, before any number of the flight
+    section = _between(page, "<h2>What must give</h2>", "<h2>Objective</h2>")
+    assert page.index('<div class="status bad">') < page.index("<h2>What must give</h2>")
+    text = block["text"]
+    assert f"<p>{html.escape(text[:1].upper() + text[1:])}</p>" in section
+    assert "may not shut down before depletion" in text
+    for header in ("condition", "kind", "as written", "needed", "change", "unit", "stages"):
+        assert f"<th>{header}</th>" in section
+    row = ("<tr><td>max axial acceleration (max_axial_acceleration)</td><td>limit</td>"
+           '<td class="num">5.000</td>'
+           f'<td class="num">{condition["required"]:,.3f}</td>'
+           f'<td class="num">{condition["relaxation"]:,.3f}</td>'
+           "<td>g0</td><td>motor (burns to depletion)</td></tr>")
+    assert row in section
+    # the block has a section of its own; where no flight was found there is no
+    # propellant table to misread
+    assert "Other results" not in page and "<h2>Propellant</h2>" not in page
+
+
+def test_report_of_a_summary_written_before_propellant_and_infeasibility(planar_result,
+                                                                          tmp_path):
+    # reports are re-rendered from results folders, which may predate these blocks
+    summary = planar_result.summary()
+    for stage in summary["stages"]:
+        del stage["propellant"]
+    summary.pop("infeasibility", None)
+    outputs.write_json(summary, tmp_path / "summary.json")
+    page = render_report_from_folder(tmp_path).read_text(encoding="utf-8")
+    _parse(page)
+    assert "<h2>Stages</h2>" in page
+    assert "<h2>Propellant</h2>" not in page and "<h2>What must give</h2>" not in page
+    # a hand-written infeasibility without conditions shows its text alone
+    summary.update(status="infeasible", infeasibility={
+        "converged": False, "return_status": "Maximum_Iterations_Exceeded", "iterations": 3,
+        "limits_are_the_cause": False, "conditions": [], "text": "<b>no</b> diagnosis"})
+    page = render_html(summary)
+    section = _between(page, "<h2>What must give</h2>", "</section>")
+    assert "&lt;b&gt;no&lt;/b&gt; diagnosis" in section and "<table>" not in section

@@ -43,7 +43,8 @@ _VERDICTS = {
 #: summary keys rendered by a section of their own; any other key goes to "Other results"
 _KNOWN_KEYS = {"problem", "dynamics", "status", "message", "objective", "burnout", "apogee",
                "limits", "verification", "stages", "payload_mass_kg", "liftoff_mass_kg",
-               "solver", "losses_m_s", "peaks", "phases", "events", "caution", "mass_split"}
+               "solver", "losses_m_s", "peaks", "phases", "events", "caution", "mass_split",
+               "infeasibility"}
 
 #: PNG file stems in the order the report shows them (overview first); others follow
 _PLOT_ORDER = ("overview", "split_map", "altitude", "speed", "dynamic_pressure",
@@ -52,9 +53,8 @@ _PLOT_ORDER = ("overview", "split_map", "altitude", "speed", "dynamic_pressure",
 _STYLE = """
 body { font-family: sans-serif; margin: 2em auto; max-width: 70em; padding: 0 1em;
        color: #1a1a1a; line-height: 1.4; }
-h1 { margin-bottom: 0.1em; }
+h1 { margin-bottom: 0.1em; }  .sub { color: #555; margin-top: 0; }
 h2 { border-bottom: 1px solid #bbb; padding-bottom: 0.2em; margin-top: 1.6em; }
-.sub { color: #555; margin-top: 0; }
 .caution { border: 2px solid #a05a00; background: #fff3dc; padding: 0.8em 1em;
            font-weight: bold; margin: 1em 0; }
 .status { border: 2px solid #777; padding: 0.8em 1em; margin: 1em 0; }
@@ -62,16 +62,14 @@ h2 { border-bottom: 1px solid #bbb; padding-bottom: 0.2em; margin-top: 1.6em; }
 .status.bad { border-color: #b71c1c; background: #fbeaea; }
 .status.neutral { border-color: #555; background: #f2f2f2; }
 .status .verdict { font-size: 1.15em; font-weight: bold; margin: 0 0 0.4em 0; }
-table { border-collapse: collapse; margin: 0.6em 0; }
+table { border-collapse: collapse; margin: 0.6em 0; }  th { background: #f0f0f0; }
 th, td { border: 1px solid #ccc; padding: 0.25em 0.7em; text-align: left; }
 td.num { text-align: right; font-variant-numeric: tabular-nums; }
-th { background: #f0f0f0; }
-tr.total td { font-weight: bold; }
+tr.total td { font-weight: bold; }  tr.flag td { background: #fff3dc; font-weight: bold; }
 code { background: #f4f4f4; padding: 0 0.2em; }
-figure { margin: 1.2em 0; }
-figure img { max-width: 100%; height: auto; border: 1px solid #ddd; }
-figcaption { color: #555; font-size: 0.9em; }
 pre { background: #f6f6f6; padding: 0.6em; overflow-x: auto; }
+figure { margin: 1.2em 0; }  figcaption { color: #555; font-size: 0.9em; }
+figure img { max-width: 100%; height: auto; border: 1px solid #ddd; }
 """
 
 
@@ -97,14 +95,16 @@ def _is_number(value) -> bool:
     return isinstance(value, (int, float)) and not isinstance(value, bool)
 
 
-def _num(value, decimals: int = 3, scale: float = 1.0) -> str:
-    """A number for a table cell; "n/a" for a missing or non-finite value."""
+def _num(value, decimals: int = 3, scale: float = 1.0, fixed: bool = False) -> str:
+    """A number for a table cell; "n/a" for a missing or non-finite value. A very large or
+    small one is in exponent form unless ``fixed``: a mass balance's rounding residual of
+    a few grams reads 0.0 kg, not -1.20e-05."""
     if not _is_number(value) or not math.isfinite(value):
         return "n/a"
     x = value / scale
-    if x != 0.0 and (abs(x) >= 1e7 or abs(x) < 10.0 ** (-decimals)):
+    if not fixed and x != 0.0 and (abs(x) >= 1e7 or abs(x) < 10.0 ** (-decimals)):
         return f"{x:.{max(decimals, 2)}e}"
-    return f"{x:,.{decimals}f}"
+    return f"{round(x, decimals) + 0.0:,.{decimals}f}"  # + 0.0: never "-0.0"
 
 
 def _yes_no(value) -> str:
@@ -118,12 +118,14 @@ def _words(name: str) -> str:
 
 
 def _table(header: list[str], rows: list[list], numeric: set[int] = frozenset(),
-           total_rows: set[int] = frozenset()) -> str:
-    """An HTML table; cells are escaped here, so pass plain text."""
+           total_rows: set[int] = frozenset(), flagged_rows: set[int] = frozenset()) -> str:
+    """An HTML table; cells are escaped here, so pass plain text. Flagged rows are
+    highlighted: a figure the reader must not miss."""
     out = ["<table>", "<thead><tr>" + "".join(f"<th>{_e(h)}</th>" for h in header)
            + "</tr></thead>", "<tbody>"]
     for i, row in enumerate(rows):
-        cls = ' class="total"' if i in total_rows else ""
+        cls = (' class="total"' if i in total_rows else ' class="flag"' if i in flagged_rows
+               else "")
         cells = "".join(f'<td class="num">{_e(c)}</td>' if j in numeric and _NUMERIC.match(
             str(c)) else f"<td>{_e(c)}</td>" for j, c in enumerate(row))
         out.append(f"<tr{cls}>{cells}</tr>")
@@ -155,6 +157,30 @@ def _status_box(summary: dict) -> str:
     return (f'<div class="status {kind}">\n<p class="verdict">{_e(verdict)}</p>\n'
             f"<p>status: <code>{_e(status)}</code>"
             + (f" &mdash; {_e(message)}" if message else "") + "</p>\n</div>")
+
+
+def _must_give_section(summary: dict) -> str:
+    """For an infeasible problem: the targets and limits that must give, and by how much."""
+    block = summary.get("infeasibility")
+    if not isinstance(block, dict):
+        return ""
+    text = str(block.get("text", ""))
+    body = f"<p>{_e(text[:1].upper() + text[1:])}</p>"  # the verdict as a sentence
+    rows = []
+    for c in block.get("conditions") or []:
+        name = str(c.get("name", ""))
+        depleting = set(c.get("stages_burning_to_depletion") or [])
+        stages = ", ".join(f"{s} (burns to depletion)" if s in depleting else str(s)
+                           for s in c.get("stages") or [])
+        rows.append([f"{_words(name)} ({name})", c.get("kind", ""), _num(c.get("value")),
+                     _num(c.get("required")), _num(c.get("relaxation")), c.get("unit", ""),
+                     stages or "-"])
+    if rows:
+        body += "\n" + _table(["condition", "kind", "as written", "needed", "change", "unit",
+                               "stages"], rows, numeric={2, 3, 4}) + (
+            "\n<p>Needed: the nearest target within reach, or the bound the flight needs. "
+            "Stages: those burning where a limit is passed.</p>")
+    return _section("What must give", body)
 
 
 def _objective_section(summary: dict) -> str:
@@ -267,6 +293,31 @@ def _stages_section(summary: dict) -> str:
     return _section("Stages", _table(
         ["stage", "propellant [kg]", "dry mass [kg]", "burn time [s]",
          "vacuum thrust [kN]"], rows, numeric={1, 2, 3, 4}))
+
+
+def _propellant_section(summary: dict) -> str:
+    """Per stage, its propellant as flown: loaded, burnt, kept as reserve, left unburnt."""
+    if summary.get("status") in ("infeasible", "failed"):
+        # where the solver stopped short of a flight, its propellant figures mean little
+        return ""
+    blocks = [(str(s.get("name", i)), s["propellant"])
+              for i, s in enumerate(summary.get("stages") or [])
+              if isinstance(s, dict) and isinstance(s.get("propellant"), dict)]
+    if not blocks:
+        return ""  # a summary from before propellant was accounted per stage
+    shutdown = {"early": "yes", "at_depletion": "no: burns to depletion"}
+    keys = ("loaded_kg", "burnt_kg", "reserve_kg", "unplanned_residual_kg")
+    rows = [[name, *(_num(p.get(k), 1, fixed=True) for k in keys),
+             _num(p.get("unplanned_residual_percent"), 2, fixed=True),
+             shutdown.get(p.get("shutdown"), "n/a")] for name, p in blocks]
+    flagged = {i for i, (_, p) in enumerate(blocks) if p.get("unplanned_residual_reported")}
+    note = ("<p>Loaded = burnt + reserve + unplanned residual. The reserve stays on board by "
+            "design; an unplanned residual is propellant dropped unburnt at staging (its row "
+            "is highlighted where it is more than rounding).</p>")
+    return _section("Propellant", _table(
+        ["stage", "loaded [kg]", "burnt [kg]", "reserve [kg]", "unplanned residual [kg]",
+         "unplanned residual [% of loaded]", "may shut down early"], rows,
+        numeric={1, 2, 3, 4, 5}, flagged_rows=flagged) + "\n" + note)
 
 
 def _losses_section(summary: dict) -> str:
@@ -424,6 +475,14 @@ def _plots_section(plots: list[Path]) -> str:
     return _section("Plots", note + "\n" + "\n".join(figures))
 
 
+#: the sections in reading order: the verdict and what must give first, the stage masses
+#: and their propellant together, the solver's detail and anything unknown last
+_SECTIONS = (_status_box, _must_give_section, _objective_section, _flight_section,
+             _limits_section, _verification_section, _stages_section, _propellant_section,
+             _losses_section, _split_section, _solver_section, _peaks_section,
+             _phases_section, _events_section, _other_section)
+
+
 def render_html(summary: dict, plots: list[Path] = ()) -> str:
     """The report page as a string.
 
@@ -448,37 +507,13 @@ def render_html(summary: dict, plots: list[Path] = ()) -> str:
     caution = summary.get("caution") or CAUTION
     subtitle = f"ascentplan {__version__} report" + (f", {dynamics} flight" if dynamics
                                                        else "")
-    parts = [
-        "<!DOCTYPE html>",
-        '<html lang="en">',
-        "<head>",
-        '<meta charset="utf-8">',
-        '<meta name="viewport" content="width=device-width, initial-scale=1">',
-        f"<title>{_e(name)} - ascentplan report</title>",
-        f"<style>{_STYLE}</style>",
-        "</head>",
-        "<body>",
-        f"<h1>{_e(name)}</h1>",
-        f'<p class="sub">{_e(subtitle)}</p>',
-        _caution_box(caution),
-        _status_box(summary),
-        _objective_section(summary),
-        _flight_section(summary),
-        _limits_section(summary),
-        _verification_section(summary),
-        _stages_section(summary),
-        _losses_section(summary),
-        _split_section(summary),
-        _solver_section(summary),
-        _peaks_section(summary),
-        _phases_section(summary),
-        _events_section(summary),
-        _other_section(summary),
-        _plots_section([Path(p) for p in plots]),
-        _caution_box(caution),
-        "</body>",
-        "</html>",
-    ]
+    head = ('<!DOCTYPE html>\n<html lang="en">\n<head>\n<meta charset="utf-8">\n'
+            '<meta name="viewport" content="width=device-width, initial-scale=1">\n'
+            f"<title>{_e(name)} - ascentplan report</title>\n<style>{_STYLE}</style>\n"
+            f'</head>\n<body>\n<h1>{_e(name)}</h1>\n<p class="sub">{_e(subtitle)}</p>')
+    parts = [head, _caution_box(caution), *(section(summary) for section in _SECTIONS),
+             _plots_section([Path(p) for p in plots]), _caution_box(caution),
+             "</body>\n</html>"]
     return "\n".join(p for p in parts if p) + "\n"
 
 
