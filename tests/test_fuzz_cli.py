@@ -78,7 +78,10 @@ def _mutated(text: str, edits) -> str:
     """``text`` after ``edits``: (what, where, value) each; positions wrap around."""
     lines = text.split("\n")
     for what, where, value in edits:
-        i = where % max(len(lines), 1)
+        if not lines:
+            # every line deleted: the file is empty, and an empty file has one empty line
+            lines = [""]
+        i = where % len(lines)
         if what == "scale":
             factor = float(value)
             lines[i] = _NUMBER.sub(lambda m, f=factor: repr(float(m.group()) * f), lines[i],
