@@ -38,7 +38,7 @@ PROBLEMS = ROOT / "problems"
 SCHEDULE = ROOT / "results" / "small-launcher-demo" / "schedule.csv"
 #: longest a single call of ``main`` may take [s] (a flight or a solve of the examples
 #: takes well under 2 s; a mutated vehicle may fly for longer, never unboundedly)
-TIME_BOUND = 60.0
+TIME_BOUND = 10.0
 #: cases per test in the long run; the default run takes the small counts below
 _LONG = int(os.environ.get("ASCENTPLAN_FUZZ_EXAMPLES", "0") or 0)
 #: characters no message may carry: C0 controls but the line feed, and DEL
