@@ -39,7 +39,8 @@ def derivatives(model, variable, points, other=1.0):
 # --- sphere correlation ---------------------------------------------------------------
 
 # Source: C_D = 24/Re + 6/(1 + sqrt(Re)) + 0.4, F. M. White, Viscous Fluid Flow,
-# 2nd ed. 1991; values computed from that formula (project reference sheet)
+# 2nd ed., McGraw-Hill 1991 (sphere drag correlation); the values are computed from that formula
+# (rounded to 6 significant digits), not read from a published table
 SPHERE = [(1.0, 27.4), (10.0, 4.24152), (100.0, 1.18545), (1e3, 0.607921), (1e4, 0.461806)]
 
 

@@ -66,8 +66,9 @@ def both_backends(model, z):
 
 # --- U.S. Standard Atmosphere 1976: published table ---------------------------------
 
-# Source: U.S. Standard Atmosphere 1976, NOAA-S/T 76-1562, tables I-II (values as
-# listed in the project's reference sheet): Z [km], T [K], P [Pa], rho [kg/m^3], a [m/s]
+# Source: U.S. Standard Atmosphere, 1976, NOAA-S/T 76-1562 (NOAA, NASA, USAF, Washington
+# DC, 1976), Part 4, Table I (geometric altitude, SI units): Z [km], T [K], P [Pa],
+# rho [kg/m^3], a [m/s]
 PUBLISHED_1976 = [
     (0, 288.150, 101325, 1.2250, 340.294),
     (1, 281.651, 89876.3, 1.11166, 336.435),
@@ -293,15 +294,31 @@ def test_exponential_half_density_altitude():
     model = ExponentialAtmosphere.from_params(half_density_altitude=5500.0)
     rho0 = 1.225
     z = np.array([0.0, 5500.0, 11000.0])
-    # definition: density halves every half_density_altitude
+    # computed from the formula rho = rho0 exp(-h/H): density halves every h_half and
+    # quarters at 2 h_half exactly when H = h_half / ln 2
     assert model.state(z).density == pytest.approx(rho0 * np.array([1.0, 0.5, 0.25]), rel=1e-12)
     assert model.scale_height == pytest.approx(5500.0 / np.log(2.0), rel=1e-15)
-    # rule of thumb (common practice): near the ground air density halves roughly
-    # every 5.5 km. USSA 1976 gives 0.57 at 5.5 km (density halves near 6.6 km;
-    # it is pressure that halves at 5.5 km), so "roughly" is 15 % here
+    # isothermal: pressure follows the density, so it halves at the same altitude
+    assert model.state(z).pressure == pytest.approx(101325.0 * np.array([1.0, 0.5, 0.25]),
+                                                    rel=1e-12)
+
+
+def test_half_density_altitude_of_the_standard_is_density_not_pressure():
+    # The standard atmosphere is not exponential: its pressure halves near 5.48 km and its
+    # density near 6.67 km (U.S. Standard Atmosphere 1976, NOAA-S/T 76-1562; both
+    # altitudes computed from the `fluids` implementation of it and checked here). The
+    # half-density altitude that fits an exponential model to it near the ground is
+    # therefore about 6.7 km; the 5.5 km often quoted is where pressure halves.
+    z = np.array([0.0, 5482.0, 6670.0])
     standard = US1976.state(z)
-    assert standard.density[1] / standard.density[0] == pytest.approx(0.5, rel=0.15)
-    assert standard.pressure[1] / standard.pressure[0] == pytest.approx(0.5, rel=0.01)
+    oracle = [ATMOSPHERE_1976(h) for h in z]  # fluids' implementation of USSA 1976
+    assert standard.pressure[1] / standard.pressure[0] == pytest.approx(0.5, rel=1e-3)
+    assert standard.density[2] / standard.density[0] == pytest.approx(0.5, rel=1e-3)
+    assert oracle[1].P / oracle[0].P == pytest.approx(0.5, rel=1e-3)
+    assert oracle[2].rho / oracle[0].rho == pytest.approx(0.5, rel=1e-3)
+    fitted = ExponentialAtmosphere.from_params(half_density_altitude=6670.0)
+    assert float(fitted.state(6670.0).density) == pytest.approx(
+        float(standard.density[2]), rel=2e-3)
 
 
 def test_exponential_rejects_both_heights():

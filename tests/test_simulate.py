@@ -224,8 +224,7 @@ def test_staging_on_depletion_drops_dry_mass_and_keeps_both_sides():
     assert kinds == ["liftoff", "burnout", "staging", "burnout", "apogee"]
     vehicle = problem.vehicle
     burnout, staging = traj.events[1], traj.events[2]
-    # mass bookkeeping of serial staging: the spent stage leaves (common practice;
-    # common practice)
+    # mass bookkeeping of serial staging: the spent stage leaves (common practice)
     assert burnout["mass"] == pytest.approx(vehicle.burnout_mass(0), rel=1e-12)
     assert staging["mass"] == pytest.approx(vehicle.mass_above(0), rel=1e-14)
     assert staging["dropped_mass"] == pytest.approx(stages[0].dry_mass, rel=1e-9)

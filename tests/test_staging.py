@@ -1,4 +1,5 @@
-"""Tests of the analytic optimal stage-mass split against published values and scipy.optimize."""
+"""Tests of the analytic optimal stage-mass split against Curtis's optimal-staging formulas
+and scipy.optimize."""
 
 import json
 import math
@@ -51,12 +52,12 @@ def _delta_v_from_stage_masses(stage_masses, exhaust, structural_ratios, payload
 # ---------------------------------------------------------------- identical stages
 
 @pytest.mark.parametrize("stages, fraction", [(2, 0.018717), (3, 0.026369), (4, 0.029303)])
-def test_identical_stages_match_published_payload_fractions(stages, fraction):
+def test_identical_stages_match_curtis_payload_fractions(stages, fraction):
     split = optimal_split([3000.0] * stages, [0.1] * stages, payload_mass=1000.0,
                           delta_v=9000.0)
-    # H. D. Curtis, Orbital Mechanics for Engineering Students, "Optimal staging"
-    # (values computed from its formula): payload fractions printed to 6 decimals,
-    # so agreement to half a unit in the last digit.
+    # Payload fractions computed from the formula of H. D. Curtis, Orbital Mechanics for
+    # Engineering Students, section "Optimal staging" (not values printed there), rounded
+    # to 6 decimals, so agreement to half a unit in the last digit.
     assert abs(split.payload_fraction - fraction) <= 5e-7
     # Curtis, "Optimal staging": identical stages split the delta-v equally.
     for dv in split.delta_v:

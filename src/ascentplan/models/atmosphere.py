@@ -112,7 +112,11 @@ class ExponentialAtmosphere:
     surface_density : float
         Density at h = 0 [kg m^-3].
     scale_height : float
-        e-folding height H [m]; density halves every H ln 2.
+        e-folding height H [m]; density halves every H ln 2. Given as
+        ``half_density_altitude`` h_half in a problem file, H = h_half / ln 2, exact for
+        this model since exp(-h_half / H) = 1/2. To fit the U.S. Standard Atmosphere
+        1976 near the ground take h_half of about 6.7 km (where its density halves); the
+        5.5 km often quoted is where its pressure halves.
     surface_pressure : float
         Pressure at h = 0 [Pa].
     temperature : float
@@ -129,7 +133,8 @@ class ExponentialAtmosphere:
                               doc="e-folding height H (default 7200 m); "
                                   "or give half_density_altitude"),
         "half_density_altitude": Param("m", None, positive=True,
-                                       doc="altitude over which density halves, H ln 2"),
+                                       doc="altitude over which density halves, H ln 2 "
+                                           "(about 6.7 km fits USSA 1976)"),
         "surface_pressure": Param("Pa", 101325.0, positive=True, doc="pressure at h = 0"),
         "temperature": Param("K", 288.15, positive=True, doc="temperature (isothermal)"),
     }
