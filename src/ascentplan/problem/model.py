@@ -218,12 +218,20 @@ class Vehicle:
 
 @dataclass(frozen=True)
 class Planet:
-    """A spherical, uniformly rotating planet."""
+    """A uniformly rotating planet: an ellipsoid of revolution, or a sphere (flattening 0).
+
+    The vertical and planar kinds fly over the sphere of the equatorial radius whatever
+    the flattening; the three-dimensional kind measures geodetic altitude and latitude on
+    the ellipsoid (:mod:`ascentplan.models.geodesy`). ``j2`` is used by the ``j2``
+    gravity model only.
+    """
 
     name: str
-    radius: float  # [m]
+    radius: float  # equatorial [m]
     gravitational_parameter: float  # [m^3 s^-2]
     rotation_rate: float = 0.0  # [rad s^-1]
+    flattening: float = 0.0  # (a - b)/a [-]
+    j2: float = 0.0  # second zonal harmonic [-]
 
     @property
     def surface_gravity(self) -> float:

@@ -40,8 +40,10 @@ from ascentplan.problem.reader import (
 )
 from ascentplan.problem.units import UnitError, expected_text, list_to_si, show, to_si
 
-_PLANET_KEYS = ("name", "radius", "gravitational_parameter", "rotation_rate")
-_AERO_KEYS = ("reference_area", "reference_length", "drag")
+_PLANET_KEYS = ("name", "radius", "gravitational_parameter", "rotation_rate", "shape",
+                "flattening", "j2")
+_PLANET_SHAPES = ("ellipsoid", "sphere")
+_AERO_KEYS = ("reference_area", "reference_length", "drag", "drag_scale")
 _LAUNCH_KEYS = ("altitude", "latitude", "vertical_rise", "pitch_over")
 _TARGET_KEYS = ("altitude", "speed", "flight_path_angle", "circular_orbit_altitude")
 _MESH_KEYS = ("scheme", "nodes_per_phase", "max_refinements", "speed_tolerance",
@@ -125,9 +127,27 @@ def _read_planet(r: _Reader, data: dict) -> Planet | None:
                     default=known.get("gravitational_parameter"), gt=0.0)
     omega = r.quantity(section, "rotation_rate", "planet", "rad/s",
                        default=known.get("rotation_rate", 0.0))
-    if None in (pname, radius, mu, omega):
+    flattening = _read_flattening(r, section, known)
+    j2 = r.quantity(section, "j2", "planet", "", default=known.get("j2", 0.0), ge=0.0, lt=0.1)
+    if None in (pname, radius, mu, omega, flattening, j2):
         return None
-    return Planet(name=pname, radius=radius, gravitational_parameter=mu, rotation_rate=omega)
+    return Planet(name=pname, radius=radius, gravitational_parameter=mu, rotation_rate=omega,
+                  flattening=flattening, j2=j2)
+
+
+def _read_flattening(r: _Reader, section: dict, known: dict) -> float | None:
+    """Flattening of the planet: 0 for ``shape: sphere``, else as given or the known
+    planet's (WGS 84 for ``earth``)."""
+    shape = r.choice(section, "shape", "planet", list(_PLANET_SHAPES), "ellipsoid", "shape")
+    flattening = r.quantity(section, "flattening", "planet", "",
+                            default=known.get("flattening", 0.0), ge=0.0, lt=0.5)
+    if shape == "sphere":
+        if section.get("flattening") not in (None, 0, 0.0):
+            r.error("planet.flattening", f"a sphere has no flattening; remove it or set "
+                                         f"shape: ellipsoid, got {show(section['flattening'])}")
+            return None
+        return 0.0
+    return flattening
 
 
 def _model_name(r: _Reader, raw: Any, path: str, registry: dict, kind: str):
