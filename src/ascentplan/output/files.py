@@ -12,7 +12,7 @@ import numpy as np
 from ascentplan.cautions import CAUTION
 from ascentplan.output.atomic import atomic_open
 from ascentplan.problem.limits import LIMITS
-from ascentplan.replay.budget import LOSS_NAMES, LOSS_QUANTITIES
+from ascentplan.replay.budget import LOSS_NAMES
 from ascentplan.replay.schedule import PhaseControls, PhaseSchedule, ScheduleError
 from ascentplan.replay.trajectory import Trajectory
 from ascentplan.replay.verify import limit_peaks
@@ -32,30 +32,8 @@ class ScheduleFileError(ScheduleError):
 
 def _trajectory_columns(traj: Trajectory):
     """(header, values) pairs of the trajectory CSV, SI units in the names."""
-    q = traj.quantities
-    kind = traj.kind
-
-    def values(spec):
-        header, source, name, factor = spec
-        if source == "state":
-            v = traj.state[kind.index(name)]
-        elif source == "control":
-            v = traj.controls[kind.control_index(name)]
-        else:
-            v = q[name]
-        return header, v * factor if factor != 1.0 else v
-
-    cols = [("time_s", traj.time), ("phase", traj.phase.astype(float))]
-    cols += [values(spec) for spec in kind.trajectory_columns]
-    cols += [("relative_speed_m_s", q["relative_speed"]),
-             ("dynamic_pressure_Pa", q["dynamic_pressure"]), ("mach", q["mach"]),
-             ("axial_acceleration_g0", q["axial_acceleration"])]
-    cols += [values(spec) for spec in kind.extra_trajectory_columns]
-    cols += [("thrust_N", q["thrust"]), ("drag_N", q["drag"]),
-             ("mass_flow_kg_s", q["mass_flow"]), ("density_kg_m3", q["density"]),
-             ("pressure_Pa", q["pressure"])]
-    cols += [(f"{LOSS_QUANTITIES[name]}_m_s", q[LOSS_QUANTITIES[name]]) for name in LOSS_NAMES]
-    return cols
+    # one list of columns for the file and for Trajectory.to_dataframe
+    return traj.columns()
 
 
 def write_trajectory_csv(trajectory: Trajectory, path) -> None:

@@ -15,6 +15,7 @@ import numpy as np
 
 from ascentplan.models import dynamics
 from ascentplan.problem.model import Phase, TimeSchedule
+from ascentplan.problem.model import phase_plan as plan_of
 
 #: length of the pitch-over kick of the default steering [s]
 KICK_DURATION = 5.0
@@ -104,6 +105,80 @@ class PhaseSchedule:
 
     def __post_init__(self):
         object.__setattr__(self, "phases", tuple(self.phases))
+
+    def rows(self, phase_plan=None) -> list[tuple]:
+        """One row per node, as in ``schedule.csv``.
+
+        Parameters
+        ----------
+        phase_plan : sequence of Phase, or Problem, optional
+            The phases flown (:func:`~ascentplan.problem.phase_plan`, or a problem to
+            take it from), for the kind and stage of each phase; without it those come
+            from the :class:`PhaseControls` (None when not recorded there).
+
+        Returns
+        -------
+        list of tuple
+            ``(phase, kind, stage, phase_time_s, time_s, throttle, pitch_deg)``:
+            ``time_s`` [s] is from liftoff with the scheduled durations, ``pitch_deg``
+            [deg] is None where the phase has no pitch. Each phase ends with a node at
+            its duration (the last controls held), so the rows give back the durations.
+        """
+        plan = self._plan(phase_plan)
+        rows, start = [], 0.0
+        for k, pc in enumerate(self.phases):
+            kind = plan[k].kind if plan is not None else pc.kind
+            stage = plan[k].stage if plan is not None else pc.stage
+            times, throttle, pitch = pc.time, pc.throttle, pc.pitch
+            if times[-1] < pc.duration:
+                times = np.append(times, pc.duration)
+                throttle = np.append(throttle, throttle[-1])
+                pitch = None if pitch is None else np.append(pitch, pitch[-1])
+            for j, tj in enumerate(times):
+                pitch_deg = None if pitch is None else math.degrees(float(pitch[j]))
+                rows.append((k, kind, stage, float(tj), float(start + tj),
+                             float(throttle[j]), pitch_deg))
+            start += pc.duration
+        return rows
+
+    def _plan(self, phase_plan):
+        """The phase plan as a list, from a plan or a problem; None when not given."""
+        if phase_plan is None:
+            return None
+        if hasattr(phase_plan, "vehicle"):
+            phase_plan = plan_of(phase_plan)
+        plan = list(phase_plan)
+        if len(plan) != len(self.phases):
+            raise ValueError(f"phase_plan: {len(plan)} phases, the schedule has "
+                             f"{len(self.phases)}")
+        return plan
+
+    def to_dataframe(self, phase_plan=None):
+        """The node controls as a :class:`pandas.DataFrame`, one row per node.
+
+        Columns as in ``schedule.csv``: ``phase``, ``kind``, ``stage``,
+        ``phase_time_s`` [s], ``time_s`` [s from liftoff], ``throttle`` [-],
+        ``pitch_deg`` [deg] (NaN where the phase has no pitch); see :meth:`rows`.
+
+        Parameters
+        ----------
+        phase_plan : sequence of Phase, or Problem, optional
+            For the kind and stage of each phase (e.g. ``result.problem``).
+
+        Raises
+        ------
+        ImportError
+            When pandas is not installed (``pip install "ascentplan[pandas]"``).
+        """
+        from ascentplan.replay.trajectory import require_pandas
+        pd = require_pandas()
+        columns = ("phase", "kind", "stage", "phase_time_s", "time_s", "throttle",
+                   "pitch_deg")
+        frame = pd.DataFrame(self.rows(phase_plan), columns=list(columns))
+        frame["pitch_deg"] = frame["pitch_deg"].astype(float)
+        if frame["stage"].notna().all():
+            frame["stage"] = frame["stage"].astype(int)
+        return frame
 
 
 def check_schedule(problem, plan, schedule) -> None:

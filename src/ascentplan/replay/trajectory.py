@@ -17,6 +17,19 @@ from ascentplan.replay.budget import LOSS_NAMES, LOSS_QUANTITIES
 _MAGNITUDE_PEAKS = ("q_alpha", "angle_of_attack")
 
 
+def require_pandas():
+    """The ``pandas`` module, or an ImportError that says how to install it.
+
+    pandas is an optional extra: only the ``to_dataframe`` methods need it.
+    """
+    try:
+        import pandas
+    except ImportError as exc:
+        raise ImportError("to_dataframe needs pandas, an optional extra of ascentplan: "
+                          "pip install \"ascentplan[pandas]\" (or pip install pandas)") from exc
+    return pandas
+
+
 @dataclass
 class Trajectory:
     """A flown ascent: samples, events, the loss budget and dense solutions.
@@ -93,6 +106,67 @@ class Trajectory:
     @property
     def ok(self) -> bool:
         return self.status == "ok"
+
+    def columns(self) -> list[tuple[str, np.ndarray]]:
+        """The sampled time histories as ``(name, values)`` pairs, SI units in the names.
+
+        The columns of ``trajectory.csv`` in its order: time_s, phase, the kind's state
+        and control columns (planar: altitude_m, speed_m_s, flight_path_angle_deg,
+        mass_kg, throttle, pitch_deg, radius_m, range_angle_deg, radial_speed_m_s,
+        horizontal_speed_m_s), relative_speed_m_s, dynamic_pressure_Pa, mach,
+        axial_acceleration_g0, the kind's extra columns (planar: angle_of_attack_deg,
+        q_alpha_Pa_rad), thrust_N, drag_N, mass_flow_kg_s, density_kg_m3, pressure_Pa and
+        the running loss budget (ideal_dv_m_s, gravity_loss_m_s, ...) [m s^-1].
+        """
+        q = self.quantities
+        kind = self.kind
+
+        def values(spec):
+            header, source, name, factor = spec
+            if source == "state":
+                v = self.state[kind.index(name)]
+            elif source == "control":
+                v = self.controls[kind.control_index(name)]
+            else:
+                v = q[name]
+            return header, v * factor if factor != 1.0 else v
+
+        cols = [("time_s", self.time), ("phase", self.phase.astype(float))]
+        cols += [values(spec) for spec in kind.trajectory_columns]
+        cols += [("relative_speed_m_s", q["relative_speed"]),
+                 ("dynamic_pressure_Pa", q["dynamic_pressure"]), ("mach", q["mach"]),
+                 ("axial_acceleration_g0", q["axial_acceleration"])]
+        cols += [values(spec) for spec in kind.extra_trajectory_columns]
+        cols += [("thrust_N", q["thrust"]), ("drag_N", q["drag"]),
+                 ("mass_flow_kg_s", q["mass_flow"]), ("density_kg_m3", q["density"]),
+                 ("pressure_Pa", q["pressure"])]
+        cols += [(f"{LOSS_QUANTITIES[name]}_m_s", q[LOSS_QUANTITIES[name]])
+                 for name in LOSS_NAMES]
+        return cols
+
+    def to_dataframe(self):
+        """The samples as a :class:`pandas.DataFrame`, one row per sample.
+
+        Columns as in ``trajectory.csv`` (:meth:`columns`, SI units in the names), with
+        ``phase`` as an integer and two more columns naming each sample's phase:
+        ``phase_kind`` (``rise``, ``burn``, ``coast``) and ``stage`` (index, first stage
+        0).
+
+        Raises
+        ------
+        ImportError
+            When pandas is not installed (``pip install "ascentplan[pandas]"``).
+        """
+        pd = require_pandas()
+        data = {name: np.asarray(v, dtype=float) for name, v in self.columns()}
+        phase = np.asarray(self.phase, dtype=int)
+        data["phase"] = phase
+        frame = pd.DataFrame(data)
+        at = frame.columns.get_loc("phase") + 1
+        frame.insert(at, "phase_kind", [self.phase_kinds[k] for k in phase])
+        frame.insert(at + 1, "stage", np.asarray([self.phase_stages[k] for k in phase],
+                                                 dtype=int))
+        return frame
 
     def burnout_index(self) -> int:
         """Index of the last sample of the last powered phase flown."""
