@@ -349,29 +349,42 @@ def _add_report(subparsers) -> None:
 
 def _cmd_sweep(args) -> int:
     load_problem(args.file)  # report a bad file before any worker starts
+    from ascentplan.output.study_report import write_study_outputs
     from ascentplan.study.command import sweep_command
 
-    return sweep_command(args.file, limit=args.limit, values=args.values,
+    return sweep_command(args.file, limit=args.limit, values=args.values, vary=args.vary,
                          dispersion=args.dispersion, samples=args.samples, seed=args.seed,
-                         workers=args.workers, scheduler=args.scheduler, out=args.out,
-                         retry_failed=args.retry_failed, progress=not args.quiet)
+                         confidence=args.confidence, workers=args.workers,
+                         scheduler=args.scheduler, out=args.out,
+                         retry_failed=args.retry_failed, progress=not args.quiet,
+                         report=write_study_outputs)
 
 
 def _add_sweep(subparsers) -> None:
     p = subparsers.add_parser(
-        "sweep", help="trade study: a sweep of one limit, or a dispersion of vehicle data",
+        "sweep", help="trade study: one or two inputs over values, a limit sweep, or a "
+                      "dispersion of vehicle data",
         description="Solve many variants of a problem on local worker processes, or on a "
                     "Dask scheduler given by --scheduler. Rows are written to study.csv and "
                     "study.jsonl as each point finishes; Ctrl-C or SIGTERM stops the workers "
                     "and keeps every finished row, and running the same command again "
                     "resumes. Every point's values are checked by the problem loader before "
-                    "any worker starts. Exit status 0 when every point finished (whatever "
-                    "its status), 1 when any point raised or was lost with its worker, 2 bad "
-                    "input (nothing run), 130 stopped by SIGINT, 143 stopped by SIGTERM.")
+                    "any worker starts. At the end the study folder gets performance.png "
+                    "(one input) or performance_map.png (two) and study_report.html. Exit "
+                    "status 0 when every point finished (whatever its status), 1 when any "
+                    "point raised or was lost with its worker, 2 bad input (nothing run), "
+                    "130 stopped by SIGINT, 143 stopped by SIGTERM.")
     p.add_argument("file", metavar="FILE", help="YAML problem file")
     what = p.add_mutually_exclusive_group(required=True)
+    what.add_argument("--vary", action="append", metavar="KEY=VALUES",
+                      help="an input and its values: a list V1,V2,... or a range "
+                           "START:STOP:COUNT, with units, e.g. "
+                           "target.altitude=200km:800km:7 or "
+                           "'limits.max_dynamic_pressure=20 kPa,30 kPa'; give it twice for "
+                           "a grid of two inputs")
     what.add_argument("--limit", metavar="NAME",
-                      help="limit to sweep, e.g. max_dynamic_pressure (with --values)")
+                      help="limit to sweep, e.g. max_dynamic_pressure (with --values; "
+                           "short for --vary limits.NAME=V1,V2,...)")
     what.add_argument("--dispersion", nargs="+", metavar="KEY=KIND:SPREAD",
                       help="dispersed inputs, e.g. vehicle.stages[0].thrust_vacuum=normal:0.02 "
                            "(relative sigma or half-width; with --samples)")
@@ -379,6 +392,9 @@ def _add_sweep(subparsers) -> None:
                    help="bound values with units, e.g. '20 kPa' '25 kPa' '30 kPa'")
     p.add_argument("--samples", type=int, default=None, help="dispersion samples")
     p.add_argument("--seed", type=int, default=0, help="dispersion random seed (default 0)")
+    p.add_argument("--confidence", type=float, default=0.95,
+                   help="fraction of dispersed cases the reserve covers (default 0.95); "
+                        "told with its 90 %% order-statistic confidence interval")
     where = p.add_mutually_exclusive_group()
     where.add_argument("--workers", type=int, default=None,
                        help="local worker processes (default: one per core)")

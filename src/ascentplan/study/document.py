@@ -26,11 +26,12 @@ import pint
 from ascentplan.problem.limits import LIMITS
 from ascentplan.problem.loader import ProblemError, problem_from_dict, read_problem_file
 from ascentplan.problem.model import Problem
-from ascentplan.problem.units import UnitError, to_si, ureg
+from ascentplan.problem.units import PLAUSIBLE, UnitError, describe_unit, to_si, ureg
 from ascentplan.study.errors import StudyError
 
 __all__ = ["apply_changes", "changed_problem", "check_keys", "checked_problem", "file_number",
-           "holds_whole_number", "is_number", "parse_key", "read_document", "show_path"]
+           "holds_whole_number", "is_number", "parse_key", "pint_unit", "plain_unit",
+           "read_document", "show_path", "unit_of_text"]
 
 _STEP = re.compile(r"^([A-Za-z_][A-Za-z0-9_]*)((?:\[\d+\])*)$")
 #: text that starts with a number is a quantity ('90 kN'); other text is a name ('booster')
@@ -356,3 +357,62 @@ def file_number(document: dict, key: str) -> float | None:
         return float(ureg.Quantity(node).to_base_units().magnitude)
     except (UnitError, pint.errors.PintError, ValueError, TypeError, AttributeError):
         raise StudyError(f"{key}: cannot read {node!r} as a number with a unit") from None
+
+
+# --------------------------------------------------------------------------------------
+# units of a key
+
+#: a quantity no problem-file key holds: the loader's refusal of it names the quantity the
+#: key holds
+_PROBE = "1 mol"
+#: the unit the loader reads plain numbers in, by what its messages call the quantity
+_UNIT_OF_KIND = {describe_unit(unit)[0]: unit for unit in PLAUSIBLE}
+_NUMBER_AND_UNIT = re.compile(r"^\s*[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?\s*(.*?)\s*$")
+
+
+def pint_unit(unit: str) -> str:
+    """A unit as written in a file or a table ('kPa deg', '%') as pint reads it
+    ('kPa*deg', 'percent')."""
+    return unit.strip().replace("%", "percent").replace(" ", "*")
+
+
+def unit_of_text(value: Any) -> str:
+    """The unit a value is written in: ``'km'`` of ``'200km'``, ``''`` for a plain number
+    or text without a unit."""
+    if not isinstance(value, str):
+        return ""
+    match = _NUMBER_AND_UNIT.match(value)
+    return match.group(1) if match else ""
+
+
+def plain_unit(document: dict, key: str, source_path: str | None = None) -> str | None:
+    """The unit the problem loader reads a plain number at ``key`` in.
+
+    A limit reads plain numbers in its ``si_unit``; any other key in the SI unit of its
+    quantity, which is asked of the loader itself: a value of a quantity no key holds is
+    written at the key, and the loader's refusal names the quantity expected.
+
+    Returns
+    -------
+    str or None
+        A pint unit text (``'m'``, ``'s'``, ``'m/s'``, ``''`` for a plain number), or None
+        when the loader's messages do not name one.
+    """
+    steps = parse_key(key)
+    if steps[0] == "limits" and len(steps) == 2 and steps[1] in LIMITS:
+        return LIMITS[steps[1]].si_unit
+    probe = copy.deepcopy(document)
+    try:
+        _put(probe, key, _PROBE)
+        problem_from_dict(probe, source_path)
+    except StudyError:
+        return None
+    except ProblemError as exc:
+        expected = re.compile(re.escape(key) + r": expected (a plain number|[^(,]+?)(?: \(|,)")
+        for message in exc.messages:
+            match = expected.match(message)
+            if match and match.group(1) in _UNIT_OF_KIND:
+                return _UNIT_OF_KIND[match.group(1)]
+            if message.startswith(f"{key}: expected a whole number"):
+                return ""
+    return None

@@ -127,6 +127,17 @@ def _limit_columns(result) -> dict:
     return columns
 
 
+def _exchange_ratios(result) -> list:
+    """d(objective)/d(input) per input of the result (``Result.exchange_ratios()``, where
+    the result has them), as JSON-safe entries of the study row."""
+    found = getattr(result, "exchange_ratios", None)
+    entries = found() if callable(found) else found
+    return [{"input": e.get("input"), "value": _finite(e.get("value")),
+             "unit": e.get("unit"), "objective_unit": e.get("objective_unit"),
+             "input_unit": e.get("input_unit")}
+            for e in entries or [] if isinstance(e, dict)]
+
+
 def _result_row(index, run, changes, result, warm: bool, elapsed: float) -> dict:
     problem = result.problem
     spec = OBJECTIVE_SPECS[problem.objective]
@@ -141,6 +152,7 @@ def _result_row(index, run, changes, result, warm: bool, elapsed: float) -> dict
         row["burnout_speed_m_s"] = _finite(burnout["speed_m_s"])
         row["burnout_altitude_m"] = _finite(burnout["altitude_m"])
     row.update(_limit_columns(result))
+    row["exchange_ratios"] = _exchange_ratios(result)
     row.update({"iterations": int(result.iterations), "nodes": int(result.nodes),
                 "warm_started": bool(warm), "wall_time_s": float(elapsed),
                 "worker": worker_name(), "error": None, "message": result.message})
