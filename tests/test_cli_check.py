@@ -83,7 +83,7 @@ def test_check_prints_rocket_equation_budget(path, capsys):
         # printed to 0.1 m/s and 0.1 s
         assert float(fields[-1]) == pytest.approx(dv, abs=0.051)
         assert float(fields[-2]) == pytest.approx(burn, abs=0.051)
-    total = re.search(r"total ideal dv ([\d.]+) m/s", out)
+    total = re.search(r"total ideal velocity increment ([\d.]+) m/s", out)
     assert float(total.group(1)) == pytest.approx(sum(r[1] for r in rows), abs=0.051)
     tw = re.search(r"Liftoff thrust-to-weight: ([\d.]+)", out)
     assert float(tw.group(1)) == pytest.approx(ratio, abs=6e-4)
@@ -99,6 +99,19 @@ def test_check_shows_limits_and_target_in_user_units(capsys):
     assert "altitude 200.000 km" in out and "flight-path angle 0.000 deg" in out
     assert "atmosphere us1976" in out and "drag mach_table" in out
     assert "Objective: max_burnout_speed" in out
+
+
+def test_check_prints_kilograms_as_solve_does(capsys):
+    # one user unit per quantity: a 240 t vehicle's masses in kg, as solve and
+    # summary.json give them (common practice: one unit per quantity in a tool's output)
+    assert cli.main(["check", str(ROOT / "problems" / "medium_launcher.yaml")]) == 0
+    out = capsys.readouterr().out
+    data = yaml.safe_load((ROOT / "problems" / "medium_launcher.yaml").read_text())
+    payload = _si(data["vehicle"]["payload_mass"])
+    liftoff = payload + sum(_si(s["propellant_mass"]) + _si(s["dry_mass"])
+                            for s in data["vehicle"]["stages"])
+    assert f"liftoff mass {liftoff:.1f} kg" in out
+    assert "propellant [kg]" in out and "[t]" not in out
 
 
 def test_check_many_files_reports_the_bad_one(tmp_path, capsys):

@@ -222,7 +222,7 @@ def test_default_schedule_beyond_the_limits_is_not_ok(tmp_path, capsys):
     assert 40.0 < q["peak"] < 55.0 and q["exceeded"] is True
     # the same peak as the summary's own (sampled, as verification takes it, so not
     # above the refined one)
-    assert q["peak"] <= summary["peaks"]["dynamic_pressure"]["value_Pa"] / 1e3 + 1e-9
+    assert q["peak"] <= summary["peaks"]["dynamic_pressure"]["value_kPa"] + 1e-9
     assert limits["max_axial_acceleration"]["exceeded"] is True
     captured = capsys.readouterr()
     assert "EXCEEDED" in captured.out and "max_dynamic_pressure" in captured.out
@@ -244,8 +244,10 @@ def _edited_schedule(tmp_path, column, value, kind="burn"):
     phase set to ``value``; returns the file and the edited line number."""
     with open(SMALL_SCHEDULE, newline="") as fh:
         rows = list(csv.reader(fh))
-    index = next(i for i, row in enumerate(rows) if row[1] == kind)
-    rows[index][rows[0].index(column)] = value
+    # "#" comment lines open the file (common practice); the column names follow them
+    names = next(i for i, row in enumerate(rows) if not row[0].startswith("#"))
+    index = next(i for i, row in enumerate(rows) if i > names and row[1] == kind)
+    rows[index][rows[names].index(column)] = value
     path = tmp_path / "edited.csv"
     with open(path, "w", newline="") as fh:
         csv.writer(fh).writerows(rows)

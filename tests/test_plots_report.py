@@ -338,7 +338,7 @@ def test_report_from_simulation_summary(vertical_flight, vertical_plots, tmp_pat
     assert "Forward simulation" in text
     for heading in ("Peaks", "Events", "Velocity-loss budget"):
         assert heading in text
-    peak_q = summary["peaks"]["dynamic_pressure"]["value_Pa"] / 1000.0
+    peak_q = summary["peaks"]["dynamic_pressure"]["value_kPa"]
     assert f"{peak_q:,.3f}" in text
 
 

@@ -455,16 +455,27 @@ def write_outputs(result: Result, out_dir) -> list:
     """Write summary.json, trajectory.csv, schedule.csv, the plots and report.html."""
     from pathlib import Path
 
-    from ascentplan.output.files import write_json, write_schedule_csv, write_trajectory_csv
+    from ascentplan.output.files import (
+        csv_header,
+        write_json,
+        write_schedule_csv,
+        write_trajectory_csv,
+    )
+    from ascentplan.output.inputs import solve_summary
 
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     written = []
-    write_json(result.summary(), out / "summary.json")
+    # with the problem's inputs and the run's provenance, so the folder stands alone
+    summary = solve_summary(result)
+    write_json(summary, out / "summary.json")
     written.append(out / "summary.json")
-    write_trajectory_csv(result.trajectory, out / "trajectory.csv")
+    verdict = (result.problem.name, result.status, result.message)
+    write_trajectory_csv(result.trajectory, out / "trajectory.csv",
+                         header=csv_header("trajectory (the replay)", *verdict))
     written.append(out / "trajectory.csv")
-    write_schedule_csv(result.schedule, out / "schedule.csv", phase_plan(result.problem))
+    write_schedule_csv(result.schedule, out / "schedule.csv", phase_plan(result.problem),
+                       header=csv_header("schedule", *verdict))
     written.append(out / "schedule.csv")
     from ascentplan.output.plots import plot_result
     from ascentplan.output.report import write_report
@@ -473,5 +484,5 @@ def write_outputs(result: Result, out_dir) -> list:
     if result.extra.get("mass_split", {}).get("map") and (out / "split_map.png").exists():
         pngs.append(out / "split_map.png")
     written += pngs
-    written.append(write_report(result, out, plots=pngs))
+    written.append(write_report(summary, out, plots=pngs))
     return written

@@ -15,10 +15,6 @@ from ascentplan.problem.model import OBJECTIVES, Problem, Vehicle
 
 __all__ = ["ideal_delta_v", "vehicle_summary"]
 
-#: below this liftoff mass the summary shows masses in kg rather than tonnes
-_TONNE_THRESHOLD = 20000.0
-
-
 def ideal_delta_v(vehicle: Vehicle) -> list[float]:
     """Ideal velocity increment of each stage by the rocket equation.
 
@@ -90,14 +86,16 @@ def vehicle_summary(problem: Problem) -> str:
 
 
 class _MassText:
-    """Masses as an engineer writes them: tonnes for a large vehicle, else kg."""
+    """Masses in kilograms to 0.1 kg, whatever the vehicle's size: the unit ``solve``
+    prints and summary.json holds, so that the two can be read side by side."""
+
+    unit = "kg"
 
     def __init__(self, liftoff_mass: float):
-        self.tonnes = liftoff_mass >= _TONNE_THRESHOLD
-        self.unit = "t" if self.tonnes else "kg"
+        self.liftoff_mass = liftoff_mass
 
     def __call__(self, x: float) -> str:
-        return f"{x / 1e3:.3f}" if self.tonnes else f"{x:.1f}"
+        return f"{x:.1f}"
 
 
 def _problem_lines(problem: Problem) -> list[str]:
@@ -135,7 +133,8 @@ def _stage_lines(v: Vehicle, mass: _MassText) -> list[str]:
     dv = ideal_delta_v(v)
     header = ["stage", f"propellant [{mass.unit}]", f"dry [{mass.unit}]",
               f"total [{mass.unit}]", f"ignition [{mass.unit}]", f"burnout [{mass.unit}]",
-              "thrust vac [kN]", "Isp vac [s]", "throttle", "burn [s]", "ideal dv [m/s]"]
+              "thrust vac [kN]", "Isp vac [s]", "throttle", "burn [s]",
+              "ideal velocity increment [m/s]"]
     rows = [header]
     for i, s in enumerate(v.stages):
         rows.append([s.name, mass(s.propellant_mass), mass(s.dry_mass), mass(s.mass),
@@ -145,8 +144,8 @@ def _stage_lines(v: Vehicle, mass: _MassText) -> list[str]:
                      f"{s.full_throttle_burn_time:.1f}", f"{dv[i]:.1f}"])
     rows.append(["payload", "", "", mass(v.payload_mass), "", "", "", "", "", "", ""])
     lines.extend(_table(rows, right=set(range(1, len(header)))))
-    lines.append(f"  liftoff mass {mass(v.liftoff_mass)} {mass.unit}; total ideal dv "
-                 f"{sum(dv):.1f} m/s")
+    lines.append(f"  liftoff mass {mass(v.liftoff_mass)} {mass.unit}; total ideal velocity "
+                 f"increment {sum(dv):.1f} m/s")
     lines.extend(_stage_notes(v, i, mass) for i in range(len(v.stages)))
     return lines
 

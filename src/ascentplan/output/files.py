@@ -9,8 +9,11 @@ import os
 
 import numpy as np
 
+from ascentplan import __version__
 from ascentplan.cautions import CAUTION
 from ascentplan.output.atomic import atomic_open
+from ascentplan.output.inputs import problem_inputs, provenance, unit_key
+from ascentplan.output.text import printable
 from ascentplan.problem.limits import LIMITS
 from ascentplan.replay.budget import LOSS_NAMES
 from ascentplan.replay.schedule import PhaseControls, PhaseSchedule, ScheduleError
@@ -22,8 +25,51 @@ SCHEDULE_COLUMNS = ("phase", "kind", "stage", "phase_time_s", "time_s", "throttl
 _PHASE_KINDS = ("rise", "burn", "coast")
 
 
+#: a line of a CSV file that starts with this is a comment (common practice: numpy's
+#: ``loadtxt``, pandas' ``read_csv(comment="#")`` and R's ``read.csv`` read it so)
+COMMENT = "#"
+
+#: what every column name of the CSV files says, for the comment header
+_UNITS_NOTE = ("units: each column's unit ends its name (_s, _m, _m_s, _kg, _N, _Pa, "
+               "_deg, _g0, _kg_s, _kg_m3, _Pa_rad); phase, stage and mach are plain "
+               "numbers, throttle a fraction of full mass flow; pitch from the local "
+               "horizontal")
+
+
 class ScheduleFileError(ScheduleError):
     """A schedule CSV that cannot be read; the message names the file, line and column."""
+
+
+def csv_header(what: str, problem_name: str, status: str, message: str = "") -> list[str]:
+    """The comment lines that open a CSV file, so that the file carries its caution.
+
+    Parameters
+    ----------
+    what : str
+        What the file holds, e.g. ``"schedule"`` or ``"trajectory (the verified replay)"``.
+    problem_name : str
+        The problem's name.
+    status : str
+        The status of the run that wrote it (``optimal``, ``not_verified``, ``ok``, ...).
+    message : str, optional
+        The run's one-sentence verdict.
+
+    Returns
+    -------
+    list of str
+        Lines without line ends, each starting with ``"# "``: the product and version,
+        the status, the caution and the units note. Text from the input is escaped
+        (:func:`ascentplan.output.text.printable`), so that no line break splits a line.
+    """
+    verdict = f"status: {status}" + (f" - {message}" if message else "")
+    lines = [f"ascentplan {__version__} {what} of problem {problem_name}", verdict,
+             CAUTION, _UNITS_NOTE]
+    return [f"{COMMENT} {printable(line)}" for line in lines]
+
+
+def _default_header(what: str) -> list[str]:
+    """The header of a file written without a run's verdict (e.g. from the Python API)."""
+    return csv_header(what, "(not given)", "not stated (written without a result)")
 
 
 # --------------------------------------------------------------------------------------
@@ -36,8 +82,12 @@ def _trajectory_columns(traj: Trajectory):
     return traj.columns()
 
 
-def write_trajectory_csv(trajectory: Trajectory, path) -> None:
+def write_trajectory_csv(trajectory: Trajectory, path, header: list[str] | None = None
+                         ) -> None:
     """Write one row per sample; the header names each column with its SI unit.
+
+    The file opens with comment lines (``# ``, :func:`csv_header`: ``header`` when
+    given, else one naming the trajectory's own status), then the line of column names.
 
     Columns (planar): time_s, phase, altitude_m, speed_m_s (inertial),
     flight_path_angle_deg (inertial), mass_kg, throttle, pitch_deg, radius_m,
@@ -51,11 +101,14 @@ def write_trajectory_csv(trajectory: Trajectory, path) -> None:
     """
     cols = _trajectory_columns(trajectory)
     data = np.column_stack([np.asarray(v, dtype=float) for _, v in cols])
-    header = ",".join(name for name, _ in cols)
+    if header is None:
+        header = csv_header("trajectory", "(not given)", trajectory.status, trajectory.message)
+    names = ",".join(name for name, _ in cols)
     fmt = ["%.12g"] * len(cols)
     fmt[1] = "%d"
     with atomic_open(path, "w", encoding="utf-8", newline="") as fh:
-        np.savetxt(fh, data, delimiter=",", header=header, comments="", fmt=fmt)
+        np.savetxt(fh, data, delimiter=",", header="\n".join([*header, names]), comments="",
+                   fmt=fmt)
 
 
 # --------------------------------------------------------------------------------------
@@ -94,19 +147,30 @@ def _at(traj, name, index):
     return float(traj.quantities[name][index])
 
 
+def _peak_key(limit: str) -> str:
+    """The key of a peak's value: ``value_`` and the user unit of the limit on it."""
+    return "value_" + unit_key(LIMITS[limit].unit)
+
+
+def _user(limit: str, value_si: float) -> float:
+    return LIMITS[limit].to_user(value_si)
+
+
 def simulation_summary(problem, trajectory: Trajectory) -> dict:
     """Machine-readable summary of a flight (JSON-ready, stable keys, SI units in names).
 
     Keys: ``problem``, ``dynamics``, ``status`` (``ok``, ``limits_exceeded``,
     ``impact`` or ``failed``; see :func:`flight_verdict`), ``message``, ``burnout`` (time_s,
     altitude_m, speed_m_s, flight_path_angle_deg, mass_kg), ``apogee`` (time_s,
-    altitude_m, or None), ``peaks`` (``dynamic_pressure``: value_Pa, time_s, altitude_m,
+    altitude_m, or None), ``peaks`` (each in the user unit of the limit on it, as a
+    solve's ``limits`` give it: ``dynamic_pressure``: value_kPa, time_s, altitude_m,
     mach; ``axial_acceleration``: value_g0, time_s, altitude_m; planar ``q_alpha``:
-    value_Pa_rad, time_s, altitude_m, mach; ``min_altitude``: value_m, time_s),
+    value_kPa_deg, time_s, altitude_m, mach; ``min_altitude``: value_km, time_s),
     ``limits`` (each limit of the file against its peak, :func:`limit_rows`),
     ``losses_m_s`` (ideal, achieved, gravity, drag, steering, back_pressure, residual =
     ideal - achieved - losses), ``phases`` (index, kind, stage, start_s, end_s),
-    ``events`` and ``caution``.
+    ``events``, ``caution``, and the problem's ``inputs`` and the run's ``provenance``
+    (:mod:`ascentplan.output.inputs`), so that a report renders from the summary alone.
     """
     traj = trajectory
     deg = 180.0 / math.pi
@@ -124,17 +188,21 @@ def simulation_summary(problem, trajectory: Trajectory) -> dict:
         value, time, j = traj.peak(name)
         return value, time, traj.quantities_at(time, phase=int(traj.phase[j]))
 
+    # each peak in the user unit of the limit on it, as a solve's limits give it
     value, time, q = at_peak("dynamic_pressure")
-    peaks["dynamic_pressure"] = dict(value_Pa=value, time_s=time, altitude_m=q["altitude"],
-                                     mach=q["mach"])
+    peaks["dynamic_pressure"] = {_peak_key("max_dynamic_pressure"): _user(
+        "max_dynamic_pressure", value), "time_s": time, "altitude_m": q["altitude"],
+        "mach": q["mach"]}
     value, time, q = at_peak("axial_acceleration")
-    peaks["axial_acceleration"] = dict(value_g0=value, time_s=time, altitude_m=q["altitude"])
+    peaks["axial_acceleration"] = {_peak_key("max_axial_acceleration"): _user(
+        "max_axial_acceleration", value), "time_s": time, "altitude_m": q["altitude"]}
     if "q_alpha" in traj.quantities:
         value, time, q = at_peak("q_alpha")
-        peaks["q_alpha"] = dict(value_Pa_rad=value, time_s=time, altitude_m=q["altitude"],
-                                mach=q["mach"])
+        peaks["q_alpha"] = {_peak_key("max_q_alpha"): _user("max_q_alpha", value),
+                            "time_s": time, "altitude_m": q["altitude"], "mach": q["mach"]}
     value, time, _ = traj.peak("min_altitude")
-    peaks["min_altitude"] = dict(value_m=value, time_s=time)
+    peaks["min_altitude"] = {_peak_key("min_altitude"): _user("min_altitude", value),
+                             "time_s": time}
     losses = dict(traj.losses)
     losses["residual"] = losses["ideal"] - losses["achieved"] - sum(
         losses[name] for name in LOSS_NAMES if name != "ideal")
@@ -146,7 +214,8 @@ def simulation_summary(problem, trajectory: Trajectory) -> dict:
     summary = dict(problem=problem.name, dynamics=traj.dynamics, status=status,
                    message=message, burnout=burnout, apogee=apogee, peaks=peaks,
                    limits=limits, losses_m_s=losses, phases=phases,
-                   events=[_event_summary(e) for e in traj.events], caution=CAUTION)
+                   events=[_event_summary(e) for e in traj.events], caution=CAUTION,
+                   inputs=problem_inputs(problem), provenance=provenance(problem))
     return _clean(summary)
 
 
@@ -221,8 +290,10 @@ def write_simulation(problem, trajectory: Trajectory, folder) -> tuple[dict, str
     os.makedirs(folder, exist_ok=True)
     csv_path = os.path.join(folder, "trajectory.csv")
     json_path = os.path.join(folder, "summary.json")
-    write_trajectory_csv(trajectory, csv_path)
     summary = simulation_summary(problem, trajectory)
+    write_trajectory_csv(trajectory, csv_path, header=csv_header(
+        "trajectory (forward simulation of a given schedule, not optimised)", problem.name,
+        summary["status"], summary["message"]))
     write_json(summary, json_path)
     return summary, csv_path, json_path
 
@@ -246,18 +317,17 @@ def format_summary(summary: dict) -> str:
         lines.append(f"apogee       t = {num(a['time_s'], '.2f')} s, altitude "
                      f"{num(a['altitude_m'] / 1e3, '.3f')} km")
     p = summary["peaks"]
-    dynamic_pressure, q_alpha = LIMITS["max_dynamic_pressure"], LIMITS["max_q_alpha"]
     q = p["dynamic_pressure"]
-    lines.append(f"max q        {num(dynamic_pressure.to_user(q['value_Pa']), '.3f')} "
-                 f"{dynamic_pressure.unit} at t = "
+    lines.append(f"max q        {_peak_text(q, 'max_dynamic_pressure')} at t = "
                  f"{num(q['time_s'], '.2f')} s, altitude {num(q['altitude_m'] / 1e3, '.2f')}"
                  f" km, Mach {num(q['mach'], '.2f')}")
     g = p["axial_acceleration"]
-    lines.append(f"max axial    {num(g['value_g0'], '.3f')} g0 at t = {num(g['time_s'], '.2f')} s")
+    lines.append(f"max axial    {_peak_text(g, 'max_axial_acceleration')} at t = "
+                 f"{num(g['time_s'], '.2f')} s")
     if "q_alpha" in p:
         qa = p["q_alpha"]
-        lines.append(f"max q-alpha  {num(q_alpha.to_user(qa['value_Pa_rad']), '.3f')} "
-                     f"{q_alpha.unit} at t = {num(qa['time_s'], '.2f')} s")
+        lines.append(f"max q-alpha  {_peak_text(qa, 'max_q_alpha')} at t = "
+                     f"{num(qa['time_s'], '.2f')} s")
     lines += _limit_lines(summary.get("limits") or [])
     lines.append("velocity budget [m/s]")
     losses = summary["losses_m_s"]
@@ -269,18 +339,26 @@ def format_summary(summary: dict) -> str:
     return "\n".join(lines)
 
 
+def _peak_text(peak: dict, limit: str) -> str:
+    """A peak's value with the unit of the limit on it, e.g. ``46.920 kPa``."""
+    value = peak.get(_peak_key(limit))
+    return f"{'n/a' if value is None else format(value, '.3f')} {LIMITS[limit].unit}"
+
+
 def _limit_lines(limits: list[dict]) -> list[str]:
-    """The limits block of the printed summary: bound, peak, excess, verdict."""
+    """The limits block of the printed summary: bound, peak (each with its unit),
+    excess, verdict."""
     if not limits:
         return []
-    lines = [f"limits       {'name':<24s}{'bound':>14s}{'peak':>12s}{'excess':>10s}"]
+    lines = [f"limits       {'name':<24s}{'bound':>14s}{'peak':>14s}{'excess':>10s}"]
     for row in limits:
         bound = f"{row['bound']:g} {row['unit']}"
         if row["peak"] is None:
-            lines.append(f"             {row['name']:<24s}{bound:>14s}{'not flown':>12s}")
+            lines.append(f"             {row['name']:<24s}{bound:>14s}{'not flown':>14s}")
             continue
         verdict = "  EXCEEDED" if row["exceeded"] else ""
-        lines.append(f"             {row['name']:<24s}{bound:>14s}{row['peak']:12.4g}"
+        peak = f"{row['peak']:.4g} {row['unit']}"
+        lines.append(f"             {row['name']:<24s}{bound:>14s}{peak:>14s}"
                      f"{100 * row['excess_fraction']:+9.2f}%{verdict}")
     return lines
 
@@ -289,13 +367,16 @@ def _limit_lines(limits: list[dict]) -> list[str]:
 # schedule CSV
 
 
-def write_schedule_csv(schedule: PhaseSchedule, path, phase_plan) -> None:
+def write_schedule_csv(schedule: PhaseSchedule, path, phase_plan,
+                       header: list[str] | None = None) -> None:
     """Write a :class:`~ascentplan.replay.schedule.PhaseSchedule` as a schedule CSV.
 
-    Columns ``phase,kind,stage,phase_time_s,time_s,throttle,pitch_deg``, one row per
-    node; ``time_s`` is from liftoff with the scheduled durations, ``pitch_deg`` is
-    empty where the phase has no pitch. Each phase ends with a node at its duration so
-    that reading the file back gives the same durations.
+    Comment lines first (``# ``: ``header``, from :func:`csv_header`; without it, one
+    that says no verdict was given), then the columns
+    ``phase,kind,stage,phase_time_s,time_s,throttle,pitch_deg``, one row per node;
+    ``time_s`` is from liftoff with the scheduled durations, ``pitch_deg`` is empty
+    where the phase has no pitch. Each phase ends with a node at its duration so that
+    reading the file back gives the same durations.
     """
     plan = list(phase_plan)
     if len(plan) != len(schedule.phases):
@@ -304,6 +385,8 @@ def write_schedule_csv(schedule: PhaseSchedule, path, phase_plan) -> None:
     start = 0.0
     with atomic_open(path, "w", newline="", encoding="utf-8") as fh:
         writer = csv.writer(fh)
+        for line in _default_header("schedule") if header is None else header:
+            fh.write(line + "\r\n")  # the line end csv.writer uses for its rows
         writer.writerow(SCHEDULE_COLUMNS)
         for k, (pc, phase) in enumerate(zip(schedule.phases, plan)):
             times = pc.time
@@ -323,6 +406,9 @@ def write_schedule_csv(schedule: PhaseSchedule, path, phase_plan) -> None:
 
 def read_schedule_csv(path) -> PhaseSchedule:
     """Read a schedule CSV into a :class:`~ascentplan.replay.schedule.PhaseSchedule`.
+
+    Lines starting with ``#`` are comments (the header :func:`write_schedule_csv`
+    writes, or a user's notes) and are skipped; line numbers in messages are the file's.
 
     The phase duration is the last ``phase_time_s`` of the phase; ``time_s`` is read
     for checking only. Phases must be numbered 0, 1, ... in order; ``kind`` and
@@ -360,20 +446,28 @@ def read_schedule_csv(path) -> PhaseSchedule:
     return PhaseSchedule(tuple(phases))
 
 
+def _without_comments(lines):
+    """The lines of a file with each comment line (``#`` first, after any blanks) made
+    blank, so that the CSV reader skips it and line numbers stay those of the file."""
+    for line in lines:
+        yield "\n" if line.lstrip().startswith(COMMENT) else line
+
+
 def _schedule_rows(name: str) -> list[tuple[int, dict]]:
-    """The non-blank rows of a schedule CSV after its header: (line number, cells)."""
+    """The non-blank rows of a schedule CSV after its header: (line number, cells).
+
+    Comment lines (``#``) are skipped wherever they are, the header included."""
     try:
         fh = open(name, newline="", encoding="utf-8")
     except OSError as exc:
         raise ScheduleFileError(f"{name}: cannot read the schedule file ({exc.strerror})") \
             from None
     with fh:
-        reader = csv.reader(fh)
-        try:
-            header = next(reader)
-        except StopIteration:
+        reader = csv.reader(_without_comments(fh))
+        header = next((row for row in reader if any(cell.strip() for cell in row)), None)
+        if header is None:
             raise ScheduleFileError(f"{name}: empty file; expected the header "
-                                    f"{','.join(SCHEDULE_COLUMNS)}") from None
+                                    f"{','.join(SCHEDULE_COLUMNS)}")
         header = [h.strip() for h in header]
         missing = [c for c in SCHEDULE_COLUMNS if c not in header]
         if missing:
@@ -381,7 +475,8 @@ def _schedule_rows(name: str) -> list[tuple[int, dict]]:
                                     f"expected {','.join(SCHEDULE_COLUMNS)}")
         col = {c: header.index(c) for c in SCHEDULE_COLUMNS}
         rows = []
-        for line_no, row in enumerate(reader, start=2):
+        for row in reader:
+            line_no = reader.line_num
             if not row or all(not cell.strip() for cell in row):
                 continue
             if len(row) < len(header):
