@@ -75,7 +75,15 @@ def test_solve_outputs_and_schedule_round_trip(tmp_path):
                             "shadow_price_unit"}
     assert set(summary["verification"]) >= {"passed", "burnout_speed_difference_m_s",
                                             "burnout_altitude_difference_m",
-                                            "worst_limit_excess_fraction"}
+                                            "burnout_speed_tolerance_m_s",
+                                            "burnout_altitude_tolerance_m",
+                                            "worst_limit_excess_fraction", "target_met"}
+    for lim in summary["limits"]:
+        assert set(lim) >= {"excess_fraction", "tolerance_fraction", "margin_fraction",
+                            "within_bound", "passed"}
+    assert set(summary["target_miss"]) == {"passed", "conditions", "circular_orbit"}
+    # the apogee is replayed from the flight itself
+    assert summary["objective"]["independently_replayed"] is True
     assert set(summary["solver"]) >= {"iterations", "wall_time_s", "nodes", "mesh_refinements"}
     for name in ("altitude.png", "dynamic_pressure.png", "throttle.png", "overview.png"):
         assert (out / name).stat().st_size > 10_000

@@ -389,9 +389,14 @@ def test_format_split_and_as_dict():
                           stage_names=["first", "second", "upper"])
     text = format_split(split)
     lines = text.splitlines()
-    for heading in ("stage", "mass ratio", "delta-v [m/s]", "propellant [kg]", "dry [kg]",
-                    "stage mass [kg]"):
+    for heading in ("stage", "mass ratio", "ideal velocity increment [m/s]",
+                    "propellant [kg]", "dry [kg]", "stage mass [kg]"):
         assert heading in lines[0]
+    # the multiplier is named and explained, its inverse given in m/s (1/eta: the
+    # envelope theorem of the optimal-staging problem, see optimal_split's notes)
+    assert "Lagrange multiplier" in text and "optimal-staging problem" in text
+    assert f"{1.0 / split.multiplier:.1f} m/s" in text
+    assert "delta-v" not in text
     assert lines[2].startswith("first") and lines[4].startswith("upper")
     assert f"{split.stage_mass[1]:.1f}" in lines[3]
     assert f"{split.payload_fraction:.6f}" in text

@@ -144,6 +144,13 @@ class Result:
                 "peak": c.peak / factor, "peak_time_s": c.time, "active": bool(active),
                 "shadow_price": None if price is None else float(price),
                 "shadow_price_unit": f"{obj_unit} per {unit}",
+                # the peak against its bound: excess > 0 passes it, by at most the
+                # tolerance for verification to pass; the margin the NLP held inside it
+                "excess_fraction": float(c.excess_fraction),
+                "tolerance_fraction": float(c.tolerance_fraction),
+                "margin_fraction": float(c.margin_fraction),
+                "within_bound": not c.excess_fraction > 0.0,
+                "passed": bool(c.passed),
             })
         return out
 
@@ -161,26 +168,41 @@ class Result:
             out.append(entry)
         return out
 
+    def _objective_block(self) -> dict:
+        """The objective as optimised and as replayed, and whether the replay computes it
+        (a payload or liftoff mass chosen by the optimiser is flown, not recomputed)."""
+        objective = OBJECTIVE_SPECS[self.problem.objective]
+        div = objective.divisor
+        v = self.verification
+        block = {"name": self.problem.objective, "value": self.objective_value / div,
+                 "unit": objective.unit, "replayed_value": v.objective_replayed / div,
+                 "independently_replayed": bool(v.objective_independently_replayed)}
+        if not v.objective_independently_replayed:
+            block["note"] = ("replayed_value is the optimiser's value, flown by the replay; "
+                             "the replay's check of it is target_miss")
+        return block
+
     def summary(self) -> dict:
         """The summary.json content (keys documented in the README)."""
-        objective = OBJECTIVE_SPECS[self.problem.objective]
-        unit, div = objective.unit, objective.divisor
         v = self.verification
         d = {
             "problem": self.problem.name,
             "status": self.status,
             "message": self.message,
-            "objective": {"name": self.problem.objective, "value": self.objective_value / div,
-                          "unit": unit, "replayed_value": v.objective_replayed / div},
+            "objective": self._objective_block(),
             "burnout": self.burnout(),
             "limits": self.limits(),
             "verification": {
                 "passed": bool(v.passed),
                 "burnout_speed_difference_m_s": v.burnout_speed_difference_m_s,
                 "burnout_altitude_difference_m": v.burnout_altitude_difference_m,
+                "burnout_speed_tolerance_m_s": v.burnout_speed_tolerance_m_s,
+                "burnout_altitude_tolerance_m": v.burnout_altitude_tolerance_m,
                 "worst_limit_excess_fraction": v.worst_limit_excess_fraction,
+                "target_met": bool(v.target_miss.passed),
                 "reasons": list(v.reasons),
             },
+            "target_miss": v.target_miss.summary(),
             "stages": self.stages(),
             "payload_mass_kg": float(self.solved_problem.vehicle.payload_mass),
             "liftoff_mass_kg": float(self.solved_problem.vehicle.liftoff_mass),
@@ -351,44 +373,51 @@ def _status_and_message(solution: NLPSolution, verification: Verification, refin
         return "failed", (f"the solver did not converge (IPOPT: {solution.return_status}, "
                           f"{solution.iterations} iterations)")
     if not verification.passed:
-        return "not_verified", ("optimal on the mesh but the replay disagrees after "
+        return "not_verified", ("optimal on the mesh but not verified by replay after "
                                 f"{refinements} mesh refinement(s), {nodes} nodes per phase: "
                                 + "; ".join(verification.reasons))
-    return "optimal", (f"optimal and verified by replay ({nodes} nodes per phase, "
-                       f"{refinements} mesh refinement(s))")
+    checked = ["the replay agrees with the optimiser's burnout"]
+    if verification.target_miss.conditions:
+        checked.append("meets the target")
+    if verification.limits:
+        checked.append("keeps every limit's peak within "
+                       + ("its bound" if all(c.tolerance_fraction == 0.0
+                                             for c in verification.limits)
+                          else "its tolerance"))
+    return "optimal", (f"converged and verified by replay ({nodes} nodes per phase, "
+                       f"{refinements} mesh refinement(s)): " + ", ".join(checked[:-1])
+                       + (" and " if len(checked) > 1 else "") + checked[-1])
 
 
 def format_result(result: Result) -> str:
     """A short readable summary of a solve, ending with the caution."""
+    from ascentplan.output.result_text import (
+        budget_lines,
+        fixed,
+        limit_lines,
+        split_lines,
+        target_lines,
+        verification_lines,
+    )
+
     s = result.summary()
     b = s["burnout"]
     o = s["objective"]
-    v = s["verification"]
+    if o.get("independently_replayed", True):
+        replayed = f"replay {o['replayed_value']:.6g} {o['unit']}"
+    else:
+        replayed = "the optimiser's, flown by the replay; checked by the target miss"
     lines = [
         f"ascentplan solve: {s['problem']}",
         f"  status        {s['status']}: {s['message']}",
-        f"  objective     {o['name']} = {o['value']:.6g} {o['unit']}"
-        f" (replay {o['replayed_value']:.6g} {o['unit']})",
+        f"  objective     {o['name']} = {o['value']:.6g} {o['unit']} ({replayed})",
         f"  burnout       t {b['time_s']:.2f} s, altitude {b['altitude_m'] / 1000:.3f} km, "
-        f"speed {b['speed_m_s']:.2f} m/s, flight-path angle {b['flight_path_angle_deg']:.3f} deg,"
-        f" mass {b['mass_kg']:.1f} kg",
-        f"  verification  {'passed' if v['passed'] else 'FAILED'}: burnout speed "
-        f"{v['burnout_speed_difference_m_s']:+.3f} m/s, altitude "
-        f"{v['burnout_altitude_difference_m']:+.2f} m, worst limit excess "
-        f"{100 * v['worst_limit_excess_fraction']:+.3f} %",
+        f"speed {b['speed_m_s']:.2f} m/s, flight-path angle "
+        f"{fixed(b['flight_path_angle_deg'], 3)} deg, mass {b['mass_kg']:.1f} kg",
     ]
-    if s["limits"]:
-        lines.append("  limits        name                      bound        peak   active"
-                     "  shadow price")
-        for lim in s["limits"]:
-            if lim["shadow_price"] is None:
-                price = "n/a (not converged)"
-            elif lim["active"]:
-                price = f"{lim['shadow_price']:.4g} {lim['shadow_price_unit']}"
-            else:
-                price = "0 (inactive)"
-            lines.append(f"                {lim['name']:<24}{lim['bound']:>8.4g} {lim['unit']:<7}"
-                         f"{lim['peak']:>9.4g}   {'yes' if lim['active'] else 'no ':<5} {price}")
+    lines += verification_lines(s["verification"])
+    lines += target_lines(s.get("target_miss"))
+    lines += limit_lines(s["limits"])
     lines.append("  stages        name            propellant [kg]   dry [kg]   burn [s]")
     for st in s["stages"]:
         lines.append(f"                {st['name']:<16}{st['propellant_mass_kg']:>15.1f}"
@@ -397,22 +426,8 @@ def format_result(result: Result) -> str:
         # where the solver stopped short of a flight, its propellant figures mean little
         lines += _propellant_lines(s["stages"])
     lines += _infeasibility_lines(s.get("infeasibility"))
-    if s.get("losses_m_s"):
-        lo = s["losses_m_s"]
-        lines.append("  losses [m/s]  " + ", ".join(f"{k} {val:.1f}" for k, val in lo.items()))
-    split = s.get("mass_split")
-    if split:
-        lines.append(f"  stage split   ({split['hold'].replace('_', ' ')} held)  "
-                     "rocket-equation [kg]   flown optimally [kg]   coupled [kg]")
-        for st in split["stages"]:
-            lines.append(f"                {st['name']:<16}"
-                         f"{st['rocket_equation_propellant_mass_kg']:>14.1f}"
-                         f"{st['analytic_propellant_mass_kg']:>23.1f}"
-                         f"{st['coupled_propellant_mass_kg']:>15.1f}")
-        u = split["objective_unit"]
-        lines.append(f"                objective: rocket-equation split flown optimally "
-                     f"{split['analytic_objective']:.6g} {u} ({split['analytic_status']}), "
-                     f"coupled {split['coupled_objective']:.6g} {u}")
+    lines += budget_lines(s.get("losses_m_s"))
+    lines += split_lines(s.get("mass_split"))
     sv = s["solver"]
     lines.append(f"  solver        {sv['iterations']} iterations, {sv['wall_time_s']:.2f} s, "
                  f"{sv['nodes']} nodes per phase, {sv['mesh_refinements']} refinement(s)")
@@ -444,8 +459,14 @@ def _infeasibility_lines(block: dict | None) -> list[str]:
         return []
     lines = ["  must give     condition                  as written      needed"]
     for c in block["conditions"]:
-        lines.append(f"                {c['name']:<24}{c['value']:>11.4g} {c['unit']:<4}"
-                     f"{c['required']:>10.4g} {c['unit']}")
+        # an angle in fixed decimals: "-2.161e-05 deg" reads as noise
+        from ascentplan.output.result_text import fixed
+
+        value, required = ((fixed(c["value"], 4), fixed(c["required"], 4))
+                           if c["unit"] == "deg" else
+                           (f"{c['value']:.4g}", f"{c['required']:.4g}"))
+        lines.append(f"                {c['name']:<24}{value:>11} {c['unit']:<4}"
+                     f"{required:>10} {c['unit']}")
     if not block["converged"]:
         lines.append("                (rough: the diagnosis did not converge)")
     return lines

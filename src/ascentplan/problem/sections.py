@@ -47,7 +47,7 @@ _AERO_KEYS = ("reference_area", "reference_length", "drag", "drag_scale")
 _LAUNCH_KEYS = ("altitude", "latitude", "vertical_rise", "pitch_over")
 _TARGET_KEYS = ("altitude", "speed", "flight_path_angle", "circular_orbit_altitude")
 _MESH_KEYS = ("scheme", "nodes_per_phase", "max_refinements", "speed_tolerance",
-              "speed_tolerance_fraction", "limit_tolerance_fraction")
+              "speed_tolerance_fraction", "limit_tolerance_fraction", "limit_margin")
 _SPLIT_KEYS = ("hold", "liftoff_mass", "map_points")
 _SPLIT_HOLDS = ("liftoff_mass", "payload")
 _SCHEDULE_KEYS = ("time", "throttle", "pitch")
@@ -415,6 +415,8 @@ def _read_mesh(r: _Reader, data: dict):
         "limit_tolerance_fraction": r.quantity(section, "limit_tolerance_fraction", "mesh",
                                                "", default=defaults.limit_tolerance_fraction,
                                                gt=0.0, lt=1.0),
+        "limit_margin": r.quantity(section, "limit_margin", "mesh", "",
+                                   default=defaults.limit_margin, ge=0.0, lt=0.5),
     }
     _check_mesh_size(r, values["nodes_per_phase"], values["max_refinements"])
     if len(r.messages) > before:

@@ -3,8 +3,9 @@ rocket-equation split, and the map of the objective around the optimum.
 
 The rocket-equation (Lagrange-multiplier) split of :mod:`ascentplan.staging` ignores
 gravity, drag and the load limits. Here it is (1) flown optimally with the split held,
-which gives the objective it really achieves, and (2) used as the first guess of the
-coupled problem, in which each stage's propellant mass is a decision variable. Dry masses
+which gives the objective it really achieves (the ``rocket_equation_split_flown_*`` keys
+of the summary), and (2) used as the first guess of the coupled problem, in which each
+stage's propellant mass is a decision variable. Dry masses
 follow each stage's structural ratio (as given, or as its masses are written) and thrust
 follows a given thrust-to-weight ratio, else stays as written.
 """
@@ -26,7 +27,7 @@ from ascentplan.staging.rocket_equation import StageSplit, optimal_split, split_
 _SMALLEST_STAGE = 0.02
 
 
-def analytic_split(problem: Problem) -> StageSplit:
+def rocket_equation_split(problem: Problem) -> StageSplit:
     """The rocket-equation optimum split for the problem's vehicle and mass-split mode.
 
     With ``hold: liftoff_mass`` the liftoff mass (``mass_split.liftoff_mass`` or the
@@ -57,12 +58,15 @@ def solve_with_split_comparison(problem: Problem, *, map_points: int | None = No
     """Solve the coupled split; also fly the rocket-equation split optimally.
 
     The returned result is the coupled one; ``result.extra["mass_split"]`` holds, per
-    stage, the analytic and the coupled propellant and dry masses, and the objective
-    each split achieves on the full trajectory model. With ``map_points`` (and
+    stage, the rocket-equation split, that split as flown (``rocket_equation_split_flown_*``:
+    a stage the rocket equation leaves nearly empty keeps 2 % of its written propellant;
+    with the payload held the proportions are kept and one common scale is optimised)
+    and the coupled split, and the objective each achieves on the full trajectory model.
+    With ``map_points`` (and
     ``hold: liftoff_mass``), the objective over the split around the optimum is computed
     by warm-started re-solves and kept in ``extra["mass_split"]["map"]``.
     """
-    analytic = analytic_split(problem)
+    analytic = rocket_equation_split(problem)
     written = [s.propellant_mass for s in problem.vehicle.stages]
     propellant = [max(p, _SMALLEST_STAGE * w) for p, w in zip(analytic.propellant_mass, written)]
     analytic_vehicle = vehicle_with_split(problem.vehicle, propellant)
@@ -88,8 +92,8 @@ def solve_with_split_comparison(problem: Problem, *, map_points: int | None = No
         stages.append({
             "name": s.name,
             "rocket_equation_propellant_mass_kg": float(analytic.propellant_mass[i]),
-            "analytic_propellant_mass_kg": float(a.propellant_mass),
-            "analytic_dry_mass_kg": float(a.dry_mass),
+            "rocket_equation_split_flown_propellant_mass_kg": float(a.propellant_mass),
+            "rocket_equation_split_flown_dry_mass_kg": float(a.dry_mass),
             "coupled_propellant_mass_kg": float(c.propellant_mass),
             "coupled_dry_mass_kg": float(c.dry_mass),
             "written_propellant_mass_kg": float(s.propellant_mass),
@@ -97,12 +101,13 @@ def solve_with_split_comparison(problem: Problem, *, map_points: int | None = No
     info = {
         "hold": problem.mass_split.hold,
         "objective_unit": unit,
-        "analytic_objective": fixed.solution.objective / div,
-        "analytic_status": fixed.status,
-        "analytic_liftoff_mass_kg": float(fixed.solved_problem.vehicle.liftoff_mass),
+        "rocket_equation_split_flown_objective": fixed.solution.objective / div,
+        "rocket_equation_split_flown_status": fixed.status,
+        "rocket_equation_split_flown_liftoff_mass_kg": float(
+            fixed.solved_problem.vehicle.liftoff_mass),
         "coupled_objective": coupled.solution.objective / div,
         "coupled_liftoff_mass_kg": float(coupled.solved_problem.vehicle.liftoff_mass),
-        "rocket_equation_delta_v_m_s": float(analytic.total_delta_v),
+        "rocket_equation_ideal_velocity_increment_m_s": float(analytic.total_delta_v),
         "stages": stages,
     }
     if map_points and problem.mass_split.hold == "liftoff_mass" and coupled.status == "optimal":

@@ -11,7 +11,7 @@ from scipy.optimize import brentq
 
 
 class StagingError(ValueError):
-    """No feasible stage-mass split exists for the requested delta-v."""
+    """No feasible stage-mass split exists for the requested ideal velocity increment."""
 
 
 @dataclass(frozen=True)
@@ -36,7 +36,8 @@ class StageSplit:
     stage_mass : tuple of float
         Propellant plus dry mass of each stage [kg].
     delta_v : tuple of float
-        Ideal delta-v of each stage, c_i ln n_i [m s^-1].
+        Ideal velocity increment of each stage, c_i ln n_i [m s^-1] (the field names say
+        ``delta_v`` for short).
     payload_mass : float
         Mass above the last stage [kg].
     liftoff_mass : float
@@ -44,10 +45,13 @@ class StageSplit:
     payload_fraction : float
         payload / liftoff [-].
     multiplier : float
-        The Lagrange multiplier eta [s m^-1]: d ln(liftoff/payload) / d(delta-v) along
-        the optimal splits; its inverse is d(delta-v) / d ln(liftoff/payload) [m s^-1].
+        The Lagrange multiplier eta of the optimal-staging problem [s m^-1]: the growth
+        of ln(liftoff/payload) per m/s of ideal velocity increment along the optimal
+        splits; its inverse is the ideal velocity increment one more unit of
+        ln(liftoff/payload) buys [m s^-1].
     total_delta_v : float
-        Sum of the stage delta-v [m s^-1].
+        The ideal velocity increment of the whole vehicle, the sum over the stages
+        [m s^-1].
     """
 
     stage_names: tuple[str, ...]
@@ -79,8 +83,8 @@ def optimal_split(exhaust_speeds: Sequence[float], structural_ratios: Sequence[f
     Give exactly two of ``payload_mass``, ``delta_v`` and ``liftoff_mass``:
 
     * ``delta_v`` and ``payload_mass``: the split of least liftoff mass (largest payload
-      fraction) that reaches the ideal delta-v.
-    * ``liftoff_mass`` and ``payload_mass``: the split of largest ideal delta-v with the
+      fraction) that reaches the ideal velocity increment.
+    * ``liftoff_mass`` and ``payload_mass``: the split of largest ideal velocity increment with the
       liftoff mass fixed.
     * ``delta_v`` and ``liftoff_mass``: the split of largest payload; the same problem as
       the first, scaled to the given liftoff mass.
@@ -94,7 +98,7 @@ def optimal_split(exhaust_speeds: Sequence[float], structural_ratios: Sequence[f
     payload_mass : float, optional
         Mass above the last stage [kg].
     delta_v : float, optional
-        Required total ideal delta-v [m s^-1].
+        Required total ideal velocity increment [m s^-1].
     liftoff_mass : float, optional
         Total mass at liftoff [kg].
     stage_names : sequence of str, optional
@@ -116,7 +120,7 @@ def optimal_split(exhaust_speeds: Sequence[float], structural_ratios: Sequence[f
     Stage ``i`` (1 is the first to burn) has exhaust speed ``c_i``, stage mass
     ``M_i = m_prop,i + m_dry,i``, structural ratio ``eps_i = m_dry,i / M_i`` and ignition
     mass ``m_0,i`` (the whole stack when it lights); ``m_0,N+1`` is the payload.
-    Its mass ratio is ``n_i = m_0,i / (m_0,i - m_prop,i)`` and its ideal delta-v is
+    Its mass ratio is ``n_i = m_0,i / (m_0,i - m_prop,i)`` and its ideal velocity increment is
     ``c_i ln n_i``. Eliminating ``M_i`` from the definition of ``n_i`` gives the stack ratio
 
         r_i = m_0,i / m_0,i+1 = n_i (1 - eps_i) / (1 - n_i eps_i),
@@ -132,8 +136,8 @@ def optimal_split(exhaust_speeds: Sequence[float], structural_ratios: Sequence[f
 
     Each ``g_i`` is increasing and convex, ``g_i'(x) = 1 / (1 - eps_i e^x)``.
 
-    *Least liftoff mass for a given delta-v.* Minimise ``J(x)`` subject to
-    ``DV(x) = dv`` and ``x_i >= 0``. The objective is convex and the constraints linear,
+    *Least liftoff mass for a given ideal velocity increment.* Minimise ``J(x)``
+    subject to ``DV(x) = dv`` and ``x_i >= 0``. The objective is convex and the constraints linear,
     so the Karush-Kuhn-Tucker conditions are necessary and sufficient:
     ``g_i'(x_i) = eta c_i + nu_i`` with ``nu_i >= 0`` and ``nu_i x_i = 0``. A stage that
     carries propellant (``x_i > 0``) has ``1 / (1 - eps_i n_i) = eta c_i``, which is the
@@ -146,29 +150,32 @@ def optimal_split(exhaust_speeds: Sequence[float], structural_ratios: Sequence[f
     (c_i eps_i eta)``, and each stage mass follows from the mass above it as
     ``M_i = m_0,i+1 max(0, c_i eta (1 - eps_i) - 1) / eps_i``.
 
-    *Largest delta-v for a given liftoff mass.* Maximise ``DV(x)`` subject to
-    ``J(x) = L = ln(liftoff / payload)`` and ``x_i >= 0``. Because every ``g_i`` is
+    *Largest ideal velocity increment for a given liftoff mass.* Maximise ``DV(x)``
+    subject to ``J(x) = L = ln(liftoff / payload)`` and ``x_i >= 0``. Because every ``g_i`` is
     increasing and every ``c_i > 0``, the equality may be relaxed to ``J(x) <= L``
-    without changing the optimum (slack could always buy more delta-v); the relaxed
-    problem maximises a linear function over a convex set, so its KKT conditions are
-    sufficient. Stationarity of ``DV - mu (J - L) + sum kappa_i x_i`` gives
+    without changing the optimum (slack could always buy more ideal velocity
+    increment); the relaxed problem maximises a linear function over a convex set, so
+    its KKT conditions are sufficient. Stationarity of ``DV - mu (J - L) + sum kappa_i x_i`` gives
     ``g_i'(x_i) = c_i / mu`` for a stage in use and ``c_i / mu <= g_i'(0)`` for an empty
     one: the same ``n_i(eta)`` with ``eta = 1 / mu``. Here ``eta`` is fixed not by the
-    delta-v but by the masses: the product of the stack ratios must match,
+    ideal velocity increment but by the masses: the product of the stack ratios must
+    match,
 
         prod r_i(eta) = liftoff / payload,
         r_i(eta) = 1 + max(0, c_i eta (1 - eps_i) - 1) / eps_i,
 
     (the product of the stage *mass ratios* ``n_i`` is not the liftoff-to-payload ratio;
     the stack ratios ``r_i`` are). So both problems follow the same one-parameter family
-    of splits; the delta-v optimum at a liftoff mass is the liftoff optimum at that
-    delta-v. By the envelope theorem ``eta = dJ*/d(dv)`` and ``1/eta = dDV*/dL``.
+    of splits; the optimum ideal velocity increment at a liftoff mass is the liftoff
+    optimum at that ideal velocity increment. By the envelope theorem
+    ``eta = dJ*/d(dv)`` and ``1/eta = dDV*/dL``.
 
     *The multiplier.* Below ``eta_0 = min_i 1 / (c_i (1 - eps_i))`` every stage is
     empty. Above it ``DV(eta)`` and ``J(eta)`` rise strictly and continuously;
     ``J -> infinity`` and ``DV -> DV_max = sum c_i ln(1/eps_i)`` as ``eta -> infinity``
-    (``n_i -> 1/eps_i``). A delta-v at or beyond ``DV_max`` is therefore infeasible at
-    any liftoff mass. The root of ``DV(eta) = dv`` is bracketed by ``eta_0`` and
+    (``n_i -> 1/eps_i``). An ideal velocity increment at or beyond ``DV_max`` is
+    therefore infeasible at any liftoff mass. The root of ``DV(eta) = dv`` is
+    bracketed by ``eta_0`` and
     ``eta_1 = max_i 1/c_i + 2 N / (DV_max - dv)``: from ``ln(1 - u) >= -u / (1 - u)``,
     ``DV(eta) >= DV_max - sum_i 1 / (eta - 1/c_i)``, which exceeds ``dv`` at ``eta_1``.
     The root of ``J(eta) = L`` is bracketed by ``eta_0`` and
@@ -237,14 +244,14 @@ def format_split(split: StageSplit) -> str:
     Returns
     -------
     str
-        One row per stage (mass ratio, delta-v [m/s], propellant, dry and stage mass
-        [kg]), then payload, liftoff mass, payload fraction, total delta-v and the
-        multiplier.
+        One row per stage (mass ratio, ideal velocity increment [m/s], propellant, dry
+        and stage mass [kg]), then payload, liftoff mass, payload fraction, the total
+        ideal velocity increment and the Lagrange multiplier, explained in words.
     """
     if not isinstance(split, StageSplit):
         raise ValueError(f"split must be a StageSplit, got {type(split).__name__}")
-    header = ("stage", "mass ratio", "delta-v [m/s]", "propellant [kg]", "dry [kg]",
-              "stage mass [kg]")
+    header = ("stage", "mass ratio", "ideal velocity increment [m/s]", "propellant [kg]",
+              "dry [kg]", "stage mass [kg]")
     rows = [(name, f"{n:.4f}", f"{dv:.1f}", f"{mp:.1f}", f"{md:.1f}", f"{ms:.1f}")
             for name, n, dv, mp, md, ms in zip(split.stage_names, split.mass_ratio,
                                                  split.delta_v, split.propellant_mass,
@@ -258,11 +265,14 @@ def format_split(split: StageSplit) -> str:
     out = [line(header), "  ".join("-" * w for w in widths), *(line(r) for r in rows)]
     out += [
         "",
-        f"payload mass      {split.payload_mass:.1f} kg",
-        f"liftoff mass      {split.liftoff_mass:.1f} kg",
-        f"payload fraction  {split.payload_fraction:.6f}",
-        f"total delta-v     {split.total_delta_v:.1f} m/s",
-        f"multiplier eta    {split.multiplier:.6e} s/m",
+        f"payload mass                      {split.payload_mass:.1f} kg",
+        f"liftoff mass                      {split.liftoff_mass:.1f} kg",
+        f"payload fraction                  {split.payload_fraction:.6f}",
+        f"ideal velocity increment, total   {split.total_delta_v:.1f} m/s",
+        f"Lagrange multiplier eta           {split.multiplier:.6e} s/m",
+        "  (the Lagrange multiplier of the optimal-staging problem: along the optimal",
+        "  splits ln(liftoff/payload) grows by eta per m/s of ideal velocity increment;",
+        f"  one more unit of ln(liftoff/payload) buys {1.0 / split.multiplier:.1f} m/s)",
     ]
     return "\n".join(out)
 
@@ -277,11 +287,11 @@ def split_for_vehicle(vehicle, *, delta_v: float | None = None,
         Its stages give the exhaust speeds and structural ratios (a stage without a
         structural ratio uses dry / (dry + propellant) as written).
     delta_v : float, optional
-        Required ideal delta-v with ``hold="payload"`` [m s^-1]; default: the vehicle's
-        own ideal delta-v as written, sum c_i ln(ignition / burnout mass).
+        Required ideal velocity increment with ``hold="payload"`` [m s^-1]; default: the vehicle's
+        own ideal velocity increment as written, sum c_i ln(ignition / burnout mass).
     hold : {"liftoff_mass", "payload"}
         ``"liftoff_mass"`` keeps the vehicle's liftoff and payload masses and maximises
-        the ideal delta-v; ``"payload"`` keeps the payload and minimises the liftoff mass
+        the ideal velocity increment; ``"payload"`` keeps the payload and minimises the liftoff mass
         for ``delta_v``.
 
     Returns
@@ -330,7 +340,7 @@ def _stage_growth(eta, c, eps):
 
 
 def _total_delta_v(eta, c, eps):
-    """Ideal delta-v of the optimal family at multiplier eta [m s^-1]."""
+    """Ideal velocity increment of the optimal family at multiplier eta [m s^-1]."""
     excess = np.maximum(0.0, c * eta * (1.0 - eps) - 1.0)
     return float(np.sum(c * np.log1p(excess / (c * eps * eta))))
 
@@ -346,14 +356,15 @@ def _solve(residual, lo, hi):
         raise StagingError(f"no stage can carry propellant at the multiplier bracket's "
                            f"lower end {lo!r}")
     # The upper end is proven to enclose the root in exact arithmetic; rounding can only
-    # spoil that within a few ulps of the delta-v limit, and widening then is harmless.
+    # spoil that within a few ulps of the limit of the ideal velocity increment, and
+    # widening then is harmless.
     for _ in range(64):
         if residual(hi) >= 0.0:
             return brentq(residual, lo, hi, xtol=1e-15, rtol=4.0 * np.finfo(float).eps,
                           maxiter=500)
         hi *= 2.0
-    raise StagingError("the requested delta-v lies too close to the ideal limit of these "
-                       "stages for the multiplier to be found in floating point")
+    raise StagingError("the requested ideal velocity increment lies too close to the ideal "
+                       "limit of these stages for the multiplier to be found in floating point")
 
 
 def _build(names, c, eps, eta, payload_mass, growth):

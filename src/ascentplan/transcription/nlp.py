@@ -100,6 +100,7 @@ def structure_key(problem: Problem) -> tuple:
     return (problem.dynamics, problem.planet, problem.atmosphere, problem.gravity,
             problem.aerodynamics, problem.launch, stages, tuple(problem.limits.active_names()),
             problem.target, problem.objective, problem.mesh.scheme, problem.mesh.nodes_per_phase,
+            problem.mesh.limit_margin,
             None if problem.mass_split is None else (problem.mass_split.hold,
                                                      problem.mass_split.proportional))
 
@@ -260,8 +261,25 @@ class AscentNLP:
             # constraint there is degenerate
             values = Q[row, 1:] if j == 0 and not spec.at_liftoff else Q[row, :]
             expr, lower, upper = spec.scaled_constraint(
-                values, self.parameters.scalar(spec.name), self._scale_of(spec.quantity))
+                values, self._held_bound(spec), self._scale_of(spec.quantity))
             self.conditions.limit(spec.name, j, expr, lower, upper)
+
+    def _held_bound(self, spec):
+        """The bound the NLP holds for ``spec``: ``mesh.limit_margin`` inside the bound.
+
+        The quantity between nodes can pass its value at the nodes (by up to 0.48 % on
+        the examples at 40 nodes per phase, measured), so the nodes are held inside it
+        (default 0.75 %) and the flown peak stays within the bound as written. The margin is
+        applied to the parameter symbol, so the multiplier of the parameter is still
+        d(objective)/d(bound as written) and the shadow prices need no correction.
+        """
+        bound = self.parameters.scalar(spec.name)
+        margin = self.problem.mesh.limit_margin
+        if margin == 0.0:
+            return bound
+        if spec.sense == "min":
+            return bound + margin * ca.fmax(ca.fabs(bound), spec.excess_floor)
+        return bound * (1.0 - margin)
 
     def _add_throttle_rate(self, j: int, stage, U, h) -> None:
         """The stage's throttle-rate limit on a powered phase, linear in the variables."""
