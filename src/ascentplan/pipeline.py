@@ -12,7 +12,6 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from ascentplan.cautions import CAUTION
-from ascentplan.exchange import exchange_lines, exchange_ratios
 from ascentplan.models.dynamics import altitude_speed_fpa, dynamics_kind
 from ascentplan.problem.limits import LIMITS
 from ascentplan.problem.model import Problem, phase_plan
@@ -155,17 +154,6 @@ class Result:
             })
         return out
 
-    def exchange_ratios(self) -> list[dict]:
-        """d objective / d input for every priced input, largest first (user units).
-
-        Each ``{"input", "label", "value", "unit", "objective_unit", "input_unit"}``:
-        stage masses, thrusts, Isp, nozzle exit areas, the payload where given, the drag
-        scale and each limit bound (its shadow price), from the NLP's parameter
-        multipliers; values None (with a ``reason``) when the solve did not converge.
-        See :mod:`ascentplan.exchange`.
-        """
-        return exchange_ratios(self.problem, self.solution, self.limits())
-
     def stages(self) -> list[dict]:
         phases = phase_plan(self.problem)
         out = []
@@ -194,6 +182,22 @@ class Result:
                              "the replay's check of it is target_miss")
         return block
 
+    def control_smoothing(self) -> dict:
+        """The control-smoothness penalty (``mesh.control_smoothing``) and what it costs.
+
+        ``weight`` as written; ``penalty`` in the objective's unit (>= 0);
+        ``objective_without_penalty`` is the objective as named (summary ``objective``);
+        ``objective_with_penalty`` what the optimiser traded: the objective lowered by the
+        penalty when maximised, raised when minimised.
+        """
+        spec = OBJECTIVE_SPECS[self.problem.objective]
+        weight = float(getattr(self.problem.mesh, "control_smoothing", 0.0))
+        penalty = float(getattr(self.solution, "smoothing_penalty", 0.0)) / spec.divisor
+        value = self.objective_value / spec.divisor
+        return {"weight": weight, "penalty": penalty, "unit": spec.unit,
+                "objective_without_penalty": value,
+                "objective_with_penalty": value - spec.sense * penalty}
+
     def summary(self) -> dict:
         """The summary.json content (keys documented in the README)."""
         v = self.verification
@@ -202,9 +206,9 @@ class Result:
             "status": self.status,
             "message": self.message,
             "objective": self._objective_block(),
+            "control_smoothing": self.control_smoothing(),
             "burnout": self.burnout(),
             "limits": self.limits(),
-            "exchange_ratios": self.exchange_ratios(),
             "verification": {
                 "passed": bool(v.passed),
                 "burnout_speed_difference_m_s": v.burnout_speed_difference_m_s,
@@ -431,7 +435,6 @@ def format_result(result: Result) -> str:
     lines += verification_lines(s["verification"])
     lines += target_lines(s.get("target_miss"))
     lines += limit_lines(s["limits"])
-    lines += exchange_lines(s.get("exchange_ratios"))
     lines.append("  stages        name            propellant [kg]   dry [kg]   burn [s]")
     for st in s["stages"]:
         lines.append(f"                {st['name']:<16}{st['propellant_mass_kg']:>15.1f}"

@@ -241,12 +241,11 @@ class Planet:
 
 @dataclass(frozen=True)
 class Aerodynamics:
-    """Drag of the whole stack: D = 1/2 rho s C_D A_ref |v_rel|^2, s = ``drag_scale``."""
+    """Drag of the whole stack: D = 1/2 rho C_D A_ref |v_rel|^2."""
 
     reference_area: float  # [m^2]
     drag: Any  # a drag model from ascentplan.aero.DRAG_MODELS
     reference_length: float | None = None  # [m], for Reynolds number
-    drag_scale: float = 1.0  # [-], a factor on the model's C_D (drag trades)
 
 
 @dataclass(frozen=True)
@@ -319,6 +318,10 @@ class Mesh:
     speed_tolerance: float = 0.5  # [m s^-1]
     speed_tolerance_fraction: float = 5e-4
     limit_tolerance_fraction: float = 5e-3
+    #: weight of the control-smoothness penalty, a fraction of the scaled objective per
+    #: unit of squared node-to-node control change (see
+    #: :func:`ascentplan.transcription.nlp.control_smoothness`); 0 for none [-]
+    control_smoothing: float = 0.0
     #: the NLP holds each path limit this fraction inside its bound (a maximum at
     #: bound (1 - margin), a minimum at bound + margin max(|bound|, floor)), so that the
     #: replay's peaks between nodes stay within the bound itself [-]; 0 imposes the bound

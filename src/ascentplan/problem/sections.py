@@ -47,7 +47,8 @@ _AERO_KEYS = ("reference_area", "reference_length", "drag", "drag_scale")
 _LAUNCH_KEYS = ("altitude", "latitude", "vertical_rise", "pitch_over")
 _TARGET_KEYS = ("altitude", "speed", "flight_path_angle", "circular_orbit_altitude")
 _MESH_KEYS = ("scheme", "nodes_per_phase", "max_refinements", "speed_tolerance",
-              "speed_tolerance_fraction", "limit_tolerance_fraction", "limit_margin")
+              "speed_tolerance_fraction", "limit_tolerance_fraction", "limit_margin",
+              "control_smoothing")
 _SPLIT_KEYS = ("hold", "liftoff_mass", "map_points")
 _SPLIT_HOLDS = ("liftoff_mass", "payload")
 _SCHEDULE_KEYS = ("time", "throttle", "pitch")
@@ -301,12 +302,9 @@ def _read_aerodynamics(r: _Reader, data: dict, atmosphere_name: str | None):
         r.error("aerodynamics.reference_length",
                 f"missing; the {drag_name} drag model needs a length for the Reynolds "
                 f"number (e.g. '1.2 m')")
-    # a factor on every C_D of the model: what a trade of the drag estimate varies
-    drag_scale = r.quantity(section, "drag_scale", "aerodynamics", "", default=1.0, gt=0.0)
-    if area is None or drag is None or drag_scale is None:
+    if area is None or drag is None:
         return None
-    return Aerodynamics(reference_area=area, drag=drag, reference_length=length,
-                        drag_scale=drag_scale)
+    return Aerodynamics(reference_area=area, drag=drag, reference_length=length)
 
 
 def _read_drag(r: _Reader, raw: Any, in_vacuum: bool):
@@ -420,6 +418,8 @@ def _read_mesh(r: _Reader, data: dict):
                                                gt=0.0, lt=1.0),
         "limit_margin": r.quantity(section, "limit_margin", "mesh", "",
                                    default=defaults.limit_margin, ge=0.0, lt=0.5),
+        "control_smoothing": r.quantity(section, "control_smoothing", "mesh", "",
+                                        default=defaults.control_smoothing, ge=0.0, le=1.0),
     }
     _check_mesh_size(r, values["nodes_per_phase"], values["max_refinements"])
     if len(r.messages) > before:

@@ -20,7 +20,7 @@ constraint rows are placed by name (:mod:`ascentplan.transcription.layout`).
 from __future__ import annotations
 
 import time as _time
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 
 import casadi as ca
 import numpy as np
@@ -34,8 +34,8 @@ from ascentplan.transcription.layout import ConstraintRows, ParameterLayout, Var
 from ascentplan.transcription.masses import (
     StackMasses,
     add_stack_masses,
-    vehicle_parameter_sizes,
-    vehicle_parameter_values,
+    mass_parameter_sizes,
+    mass_parameter_values,
 )
 from ascentplan.transcription.phases import (
     carrier_state,
@@ -49,7 +49,8 @@ from ascentplan.transcription.phases import (
 from ascentplan.transcription.solution import Guess, NLPSolution
 
 __all__ = ["ACCELERATE_MAX_VARIABLES", "ELASTIC_OPTIONS", "IPOPT_OPTIONS", "WARM_START_OPTIONS",
-           "AscentNLP", "Guess", "NLPSolution", "nodes_for_phase", "structure_key"]
+           "AscentNLP", "Guess", "NLPSolution", "control_smoothness", "nodes_for_phase",
+           "structure_key"]
 
 #: IPOPT options: MUMPS (shipped with CasADi), exact Hessian, and the adaptive barrier
 #: update, which on the scaled examples took 20-35 % fewer iterations than the monotone
@@ -91,26 +92,19 @@ ACCELERATE_MAX_VARIABLES = 6000
 
 
 def structure_key(problem: Problem) -> tuple:
-    """What fixes the NLP's structure: everything except the values that are NLP parameters
-    (limit values, masses, thrusts and thrust-to-weight ratios, exhaust speeds, nozzle exit
-    areas, the drag scale)."""
+    """What fixes the NLP's structure: everything except limit values and masses."""
     stages = tuple(
-        (s.throttle_min, s.throttle_max, s.max_throttle_rate, s.coast_after,
-         s.structural_ratio, s.thrust_to_weight is not None, s.propellant_min,
-         s.propellant_max, s.may_shut_down_early)
+        (s.exhaust_speed, s.nozzle_exit_area, s.throttle_min, s.throttle_max,
+         s.max_throttle_rate, s.coast_after, s.structural_ratio, s.thrust_to_weight,
+         s.propellant_min, s.propellant_max, s.may_shut_down_early)
         for s in problem.vehicle.stages)
     return (problem.dynamics, problem.planet, problem.atmosphere, problem.gravity,
-            _unscaled_drag(problem).aerodynamics, problem.launch, stages,
-            tuple(problem.limits.active_names()),
+            problem.aerodynamics, problem.launch, stages, tuple(problem.limits.active_names()),
             problem.target, problem.objective, problem.mesh.scheme, problem.mesh.nodes_per_phase,
+            problem.mesh.control_smoothing,
             problem.mesh.limit_margin,
             None if problem.mass_split is None else (problem.mass_split.hold,
                                                      problem.mass_split.proportional))
-
-
-def _unscaled_drag(problem: Problem) -> Problem:
-    """The problem with drag scale 1: the NLP carries the scale as a parameter."""
-    return replace(problem, aerodynamics=replace(problem.aerodynamics, drag_scale=1.0))
 
 
 def control_smoothness(problem: Problem, controls) -> object:
@@ -186,7 +180,7 @@ class AscentNLP:
         if symbolic not in ("MX", "SX"):
             raise ValueError(f"symbolic: must be 'MX' or 'SX', got {symbolic!r}")
         self.problem = problem
-        self.model = dynamics.flight_model(_unscaled_drag(problem))
+        self.model = dynamics.flight_model(problem)
         self.kind = self.model.kind
         self.scheme = COLLOCATION_SCHEMES[problem.mesh.scheme]()
         self.phases = phase_plan(problem)
@@ -208,7 +202,7 @@ class AscentNLP:
 
     # ------------------------------------------------------------------ building
     def _build(self):
-        sizes = [(name, 1) for name in self.limit_names] + vehicle_parameter_sizes(self.problem)
+        sizes = [(name, 1) for name in self.limit_names] + mass_parameter_sizes(self.problem)
         self.parameters = ParameterLayout(self._sym, sizes)
         self.variables = VariableLayout(self._sym)
         self.rows = ConstraintRows()
@@ -278,13 +272,9 @@ class AscentNLP:
         sym = self.phase_vars[j]
         X, U = sym.states, sym.controls
         off, sc = self.x_offset[:, None], self.x_scale[:, None]
-        params = self.parameters
         engine = ca.vertcat(masses.thrust[ph.stage] if ph.powered else 0.0,
-                            params.entries("exhaust_speed")[ph.stage],
-                            params.entries("exit_area")[ph.stage] if ph.powered else 0.0,
-                            params.scalar("drag_scale"))
-        point = node_function(self.model, quantities)
-
+                            stage.exhaust_speed)
+        point = node_function(self.model, ph, stage, quantities)
         F_nodes, Q_nodes = point.map(N)(sym.physical, U, engine)
         Fs = F_nodes / sc  # scaled state derivative per physical second
         Xk, Xk1 = X[:, :-1], X[:, 1:]
@@ -426,9 +416,24 @@ class AscentNLP:
         self.objective_sense = spec.sense  # +1 maximise, -1 minimise
         # IPOPT minimises f
         self.f = -spec.sense * self.objective_expr / self.objective_scale
+        # the smoothness penalty is a fraction mesh.control_smoothing of the scaled
+        # objective per unit of control_smoothness: chatter between nodes costs little
+        # objective to remove, a genuine switch of the optimum costs the penalty weight
+        self.smoothing_weight = float(getattr(self.problem.mesh, "control_smoothing", 0.0))
+        if self.smoothing_weight > 0.0:
+            self.f = self.f + self.smoothing_weight * control_smoothness(
+                self.problem, [sym.controls for sym in self.phase_vars])
         if self.elastic:
             # meet as much as can be met first; the objective only picks among the rest
             self.f = self.conditions.penalty + OBJECTIVE_WEIGHT * self.f
+
+    def smoothing_penalty(self, controls) -> float:
+        """The smoothness penalty of node ``controls`` in the objective's SI unit (>= 0):
+        weight x :func:`control_smoothness` x the objective's scale."""
+        if self.smoothing_weight == 0.0:
+            return 0.0
+        return (self.smoothing_weight * control_smoothness(self.problem, controls)
+                * self.objective_scale)
 
     def _finish(self, masses: StackMasses) -> None:
         """The vectors and bounds handed to IPOPT, the solver, and the helper functions."""
@@ -483,9 +488,9 @@ class AscentNLP:
 
     # --------------------------------------------------------------- numerics
     def parameter_vector(self, problem: Problem) -> np.ndarray:
-        """NLP parameters (limit bounds, vehicle data) for a problem of this structure."""
+        """NLP parameters (limit bounds, masses, thrusts) for a problem of this structure."""
         values = {name: float(getattr(problem.limits, name)) for name in self.limit_names}
-        values.update(vehicle_parameter_values(problem, self.split))
+        values.update(mass_parameter_values(problem, self.split))
         return self.parameters.vector(values)
 
     def pack_guess(self, guess: Guess) -> np.ndarray:
@@ -553,19 +558,22 @@ class AscentNLP:
         to_objective = self.objective_sense * self.objective_scale
         shadow = {name: float(to_objective * lam_p[i])
                   for i, name in enumerate(self.limit_names)}
-        sensitivities = {name: to_objective * value
-                         for name, value in self.parameters.split(lam_p).items()}
         gval = np.array(self.g_function(w, pvec)).ravel()
         viol = float(np.max(np.concatenate([[0.0], self.lbg - gval, gval - self.ubg])))
         ret = stats.get("return_status", "unknown")
         success = bool(stats.get("success", False))
+        penalty = self.smoothing_penalty(controls)
+        # the objective as named, without the smoothness penalty IPOPT minimised with it
+        objective = -self.objective_sense * float(sol["f"]) * self.objective_scale
+        if not self.elastic:
+            objective += self.objective_sense * penalty
         return NLPSolution(
             status=NLPSolution.status_of(ret, success, viol), return_status=ret,
             success=success, iterations=int(stats.get("iter_count", -1)), solve_time=elapsed,
-            objective=float(-self.objective_sense * float(sol["f"]) * self.objective_scale),
+            objective=float(objective), smoothing_penalty=float(penalty),
             durations=durations, times=times, states=states, controls=controls,
             payload_mass=float(payload[0]), propellant=list(prop), dry=list(dry),
-            shadow_prices=shadow, sensitivities=sensitivities, constraint_violation=viol,
+            shadow_prices=shadow, constraint_violation=viol,
             multipliers={"lam_x": lam_x, "lam_g": lam_g, "lam_p": lam_p},
             binding=NLPSolution.binding_of(self._limit_rows, gval, self.lbg, self.ubg, lam_g,
                                            success),

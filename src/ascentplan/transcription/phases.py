@@ -19,9 +19,9 @@ _FREE_DURATION = (1e-3, 50.0)
 #: for each quantity that sets a variable scale, the states that carry it, most telling
 #: first; a kind's first state in this list gives the quantity its scale
 _CARRIERS = {
-    "altitude": ("altitude", "radius", "position_x"),
-    "speed": ("horizontal_speed", "vertical_speed", "velocity_x"),
-    "radial_speed": ("radial_speed", "vertical_speed", "velocity_x"),
+    "altitude": ("altitude", "radius"),
+    "speed": ("horizontal_speed", "vertical_speed"),
+    "radial_speed": ("radial_speed", "vertical_speed"),
     "mass": ("mass",),
 }
 
@@ -64,11 +64,7 @@ def control_bounds(kind, phase: Phase, stage) -> tuple[list, list]:
         pitch = (-0.5 * np.pi, 0.5 * np.pi)
     else:
         pitch = (0.0, 0.0)
-    # heading: free over two turns while powered (a southerly or retrograde azimuth needs
-    # no wrap-around); held at zero in the rise, where the thrust is vertical whatever the
-    # heading, and in a coast, where there is no thrust: no direction without an effect
-    heading = (-2.0 * np.pi, 2.0 * np.pi) if phase.kind == "burn" else (0.0, 0.0)
-    bounds = {"throttle": throttle, "pitch": pitch, "heading": heading}
+    bounds = {"throttle": throttle, "pitch": pitch}
     names = kind.control_names
     return [bounds[n][0] for n in names], [bounds[n][1] for n in names]
 
@@ -95,23 +91,23 @@ def last_of_stage(phases: list[Phase], j: int) -> bool:
                            or phases[j + 1].stage != ph.stage)
 
 
-def node_function(model, quantities) -> ca.Function:
-    """SX Function (x_phys, u, engine) -> (xdot, [the flight quantities named]).
-
-    ``engine`` is [vacuum thrust [N], exhaust speed [m/s], nozzle exit area [m^2], drag
-    scale [-]]: NLP parameters (or expressions of them), so that their multipliers price
-    them and a change of their values reuses the built NLP.
+def node_function(model, phase: Phase, stage, quantities) -> ca.Function:
+    """SX Function (x_phys, u, [thrust, c]) -> (xdot, [the flight quantities named]).
 
     Parameters
     ----------
     model : FlightModel
+    phase : Phase
+    stage : Stage
+        The stage flown (its nozzle exit area, when powered).
     quantities : sequence of str
         Keys of :func:`ascentplan.models.dynamics.flight_quantities`, one row each.
     """
     x = ca.SX.sym("x", model.n_states)
     u = ca.SX.sym("u", model.n_controls)
-    engine = ca.SX.sym("prop", 4)
-    prop = dynamics.Propulsion(engine[0], engine[1], engine[2], engine[3])
+    engine = ca.SX.sym("prop", 2)
+    exit_area = stage.nozzle_exit_area if phase.powered else 0.0
+    prop = dynamics.Propulsion(engine[0], engine[1], exit_area)
     xdot = dynamics.rhs(0.0, x, u, (model, prop))
     fq = dynamics.flight_quantities(x, u, model, prop)
     Q = ca.vertcat(*[fq[name] for name in quantities])
