@@ -40,7 +40,14 @@ def _model(kind, environment) -> dynamics.FlightModel:
 
 def _random_state(kind, draw_unit) -> np.ndarray:
     """A plausible ascent state of ``kind`` from numbers in [0, 1): altitude 0-300 km,
-    speeds up to 8 km/s either sign, mass 1-100 t, angles within a turn."""
+    speeds up to 8 km/s either sign, mass 1-100 t, angles within a turn; Cartesian
+    positions at 0-300 km altitude in any direction, velocity components up to 8 km/s."""
+    if "position_x" in kind.state_names:
+        lat, lon = np.arcsin(2 * draw_unit() - 1), 2 * np.pi * draw_unit()
+        r = (EARTH.radius + 3e5 * draw_unit()) * np.array(
+            [np.cos(lat) * np.cos(lon), np.cos(lat) * np.sin(lon), np.sin(lat)])
+        v = [-8e3 + 16e3 * draw_unit() for _ in range(3)]
+        return np.concatenate([r, v, [1e3 + 99e3 * draw_unit()]])
     ranges = {
         "altitude": (0.0, 3e5), "radius": (EARTH.radius, EARTH.radius + 3e5),
         "vertical_speed": (-3e3, 3e3), "radial_speed": (-3e3, 3e3),
@@ -54,7 +61,8 @@ def _random_state(kind, draw_unit) -> np.ndarray:
 
 
 def _random_control(kind, draw_unit) -> np.ndarray:
-    ranges = {"throttle": (0.0, 1.0), "pitch": (-0.5 * np.pi, 0.5 * np.pi)}
+    ranges = {"throttle": (0.0, 1.0), "pitch": (-0.5 * np.pi, 0.5 * np.pi),
+              "heading": (-np.pi, 2.0 * np.pi)}
     return np.array([ranges[n][0] + (ranges[n][1] - ranges[n][0]) * draw_unit()
                      for n in kind.control_names])
 

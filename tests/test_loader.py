@@ -323,19 +323,20 @@ BAD_CASES = [
       "valid names: max_burnout_speed"]),
     ("bad-dynamics", _set("dynamics", "flat"), ["dynamics: unknown dynamics 'flat'"]),
     ("vertical-q-alpha", _vertical(_set("limits", "max_q_alpha", "150 kPa deg")),
-     ["limits.max_q_alpha: applies to planar flight only (dynamics is vertical), "
+     ["limits.max_q_alpha: applies to planar or three_dimensional flight only (dynamics is "
+      "vertical), "
       "got '150 kPa deg'"]),
     ("vertical-pitch-over", _both(_set("dynamics", "vertical"),
                                   _set("target", "flight_path_angle", _DELETE)),
-     ["launch.pitch_over: applies to planar flight only", "got '3 deg'"]),
+     ["launch.pitch_over: applies to planar or three_dimensional flight only", "got '3 deg'"]),
     ("vertical-flight-path-angle", _both(_set("dynamics", "vertical"),
                                          _set("launch", "pitch_over", _DELETE)),
-     ["target.flight_path_angle: applies to planar flight only"]),
+     ["target.flight_path_angle: applies to planar or three_dimensional flight only"]),
     ("vertical-circular-orbit", _vertical(_set("target", {"circular_orbit_altitude": "300 km"})),
-     ["target.circular_orbit_altitude: applies to planar flight only"]),
+     ["target.circular_orbit_altitude: applies to planar or three_dimensional flight only"]),
     ("vertical-schedule-pitch", _vertical(_set("schedule", {
         "time": [0, 10], "throttle": [1, 1], "pitch": ["90 deg", "80 deg"]})),
-     ["schedule.pitch: applies to planar flight only"]),
+     ["schedule.pitch: applies to planar or three_dimensional flight only"]),
     ("unsorted-schedule", _set("schedule", {"time": ["0 s", "20 s", "10 s"],
                                             "throttle": [1, 1, 1]}),
      ["schedule.time[2]: times must increase strictly, got 10 s after 20 s"]),

@@ -288,52 +288,23 @@ def _add_solve(subparsers) -> None:
     p.set_defaults(handler=_cmd_solve)
 
 
-def _speed_argument(text: str) -> float:
-    """A speed on the command line, with its unit ("9.2 km/s"; a bare number is m/s)."""
-    from ascentplan.output.split_record import speed_from_text
-
-    try:
-        return speed_from_text(text, "--delta-v")
-    except ValueError as exc:
-        # argparse names the option itself
-        raise argparse.ArgumentTypeError(str(exc).removeprefix("--delta-v: ")) from None
-
-
 def _cmd_split(args) -> int:
     problem = load_problem(args.file)
     from ascentplan.cautions import CAUTION
-    from ascentplan.output.atomic import write_text
-    from ascentplan.output.split_record import split_json, split_record
     from ascentplan.staging.rocket_equation import StagingError, format_split, split_for_vehicle
 
-    payload = problem.vehicle.payload_mass
-    if not payload > 0.0:
-        # the rocket equation sizes each stage by the mass above it: without a payload
-        # the optimum is no vehicle at all
-        _say(f"{args.file}: vehicle.payload_mass: must be > 0 kg for a stage split (each "
-             f"stage is sized by the mass above it), got {payload:g} kg")
-        return EXIT_BAD_INPUT
-    delta_v = args.delta_v
     hold = args.hold or (problem.mass_split.hold if problem.mass_split else "liftoff_mass")
     try:
-        split = split_for_vehicle(problem.vehicle, delta_v=delta_v, hold=hold)
+        split = split_for_vehicle(problem.vehicle, delta_v=args.delta_v, hold=hold)
     except StagingError as exc:
         _say(f"{args.file}: {exc}")
         return 3
     except ValueError as exc:  # a bad combination of options
         _say(f"{args.file}: {exc}")
         return EXIT_BAD_INPUT
-    text = split_json(split_record(problem, split, hold, delta_v))
-    if args.json is not None:
-        write_text(args.json, text)
-    if args.format == "json":
-        print(text, end="")  # JSON escapes control characters itself
-        return 0
     _show(f"Rocket-equation stage split of {problem.name} ({hold.replace('_', ' ')} held; "
           "no gravity, drag or limits)")
     _show(format_split(split))
-    if args.json is not None:
-        _show(f"wrote {args.json}")
     _show(CAUTION)
     return 0
 
@@ -341,23 +312,17 @@ def _cmd_split(args) -> int:
 def _add_split(subparsers) -> None:
     p = subparsers.add_parser(
         "split", help="optimal stage mass split by the rocket equation (no trajectory)",
-        description="The Lagrange-multiplier optimum stage split of the vehicle in FILE: "
-                    "liftoff mass held (maximum ideal velocity increment) or payload held "
-                    "(minimum liftoff mass for --delta-v); as text, or as JSON on stdout "
-                    "(--format json) or in a file (--json FILE). Exit status 0, 2 bad "
-                    "input (a payload of 0 kg too), 3 if no split reaches the velocity.")
+        description="The Lagrange-multiplier optimum split of the stage masses for the "
+                    "vehicle in FILE: with the liftoff mass held (maximum ideal velocity) or "
+                    "the payload held (minimum liftoff mass for --delta-v). Exit status 3 if "
+                    "no split can reach the velocity.")
     p.add_argument("file", metavar="FILE", type=_path_argument, help="YAML problem file")
     p.add_argument("--hold", choices=("liftoff_mass", "payload"), default=None,
                    help="what stays fixed (default: the file's mass_split.hold, else "
                         "liftoff_mass)")
-    p.add_argument("--delta-v", default=None, metavar="SPEED", type=_speed_argument,
-                   help="required ideal velocity increment with --hold payload, with its "
-                        "unit ('9.2 km/s'; a bare number is m/s; default: the vehicle's "
-                        "own as written)")
-    p.add_argument("--format", choices=("text", "json"), default="text",
-                   help="text (default) or json on standard output")
-    p.add_argument("--json", metavar="FILE", default=None, type=_path_argument,
-                   help="also write the split as JSON to FILE")
+    p.add_argument("--delta-v", type=float, default=None, metavar="M_S",
+                   help="required ideal velocity increment [m/s] with --hold payload "
+                        "(default: the vehicle's own as written)")
     p.set_defaults(handler=_cmd_split)
 
 
@@ -377,9 +342,7 @@ def _add_report(subparsers) -> None:
     p = subparsers.add_parser(
         "report", help="render report.html from an existing results folder",
         description="Render a self-contained HTML report from the summary.json and plots in "
-                    "a results folder written by 'solve' or 'simulate', from those files "
-                    "alone (the summary restates the problem's inputs). Exit status 0, or 2 "
-                    "when the folder has no usable summary.json.")
+                    "a results folder written by 'solve'.")
     p.add_argument("folder", metavar="DIR", type=_path_argument, help="results folder")
     p.set_defaults(handler=_cmd_report)
 

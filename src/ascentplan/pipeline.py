@@ -182,22 +182,6 @@ class Result:
                              "the replay's check of it is target_miss")
         return block
 
-    def control_smoothing(self) -> dict:
-        """The control-smoothness penalty (``mesh.control_smoothing``) and what it costs.
-
-        ``weight`` as written; ``penalty`` in the objective's unit (>= 0);
-        ``objective_without_penalty`` is the objective as named (summary ``objective``);
-        ``objective_with_penalty`` what the optimiser traded: the objective lowered by the
-        penalty when maximised, raised when minimised.
-        """
-        spec = OBJECTIVE_SPECS[self.problem.objective]
-        weight = float(getattr(self.problem.mesh, "control_smoothing", 0.0))
-        penalty = float(getattr(self.solution, "smoothing_penalty", 0.0)) / spec.divisor
-        value = self.objective_value / spec.divisor
-        return {"weight": weight, "penalty": penalty, "unit": spec.unit,
-                "objective_without_penalty": value,
-                "objective_with_penalty": value - spec.sense * penalty}
-
     def summary(self) -> dict:
         """The summary.json content (keys documented in the README)."""
         v = self.verification
@@ -206,7 +190,6 @@ class Result:
             "status": self.status,
             "message": self.message,
             "objective": self._objective_block(),
-            "control_smoothing": self.control_smoothing(),
             "burnout": self.burnout(),
             "limits": self.limits(),
             "verification": {
@@ -248,7 +231,9 @@ def _replay(problem: Problem, solution: NLPSolution):
         rel = solution.times[j] - solution.times[j][0]
         entries.append(PhaseControls(duration=float(solution.durations[j]), time=rel,
                                      throttle=U[throttle].copy(),
-                                     pitch=None if pitch is None else U[pitch].copy()))
+                                     pitch=None if pitch is None else U[pitch].copy(),
+                                     heading=(U[kind.control_index("heading")].copy()
+                                              if kind.has_control("heading") else None)))
     schedule = PhaseSchedule(tuple(entries))
     trajectory = simulate(problem, schedule, coast_to_apogee=False)
     return schedule, trajectory
@@ -271,9 +256,14 @@ def _guess_schedule(problem: Problem):
     from ascentplan.models.atmosphere import Vacuum
     from ascentplan.problem.model import TimeSchedule
 
-    if not dynamics_kind(problem.dynamics).steered:
+    kind = dynamics_kind(problem.dynamics)
+    if not kind.steered:
         return None
-    if not isinstance(problem.atmosphere, Vacuum) and problem.launch.pitch_over > 0:
+    # a flight out of the launch plane always takes the ramp, with its heading along the
+    # target plane (the control law's default): a gravity turn drifts with the wind of
+    # the planet's rotation, and a guess off the plane converged poorly (measured)
+    if not kind.spatial and not isinstance(problem.atmosphere, Vacuum) \
+            and problem.launch.pitch_over > 0:
         return None
     rise = problem.launch.vertical_rise
     total = sum(s.full_throttle_burn_time + s.coast_after for s in problem.vehicle.stages)

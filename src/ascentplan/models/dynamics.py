@@ -72,6 +72,9 @@ class DynamicsKind:
     trajectory_columns: ClassVar[tuple] = ()
     #: columns after the common air-data columns (quantities only this kind computes)
     extra_trajectory_columns: ClassVar[tuple] = ()
+    #: whether the flight leaves a plane: launch azimuth, inclination, node and a gravity
+    #: field that depends on latitude (J2) mean something only then
+    spatial: ClassVar[bool] = False
 
     # -- layout ----------------------------------------------------------------------
     @property
@@ -156,6 +159,16 @@ class DynamicsKind:
         """Pitch along the air-relative velocity [rad] (zero angle of attack)."""
         w_radial, w_horizontal = self.air_relative_velocity(x, model)
         return m_.atan2(w_radial, w_horizontal)
+
+    def air_steering(self, x, model) -> list:
+        """The steering controls (all but the throttle) that point the thrust along the
+        air-relative velocity: zero angle of attack [rad]."""
+        return [self.air_pitch(x, model)]
+
+    def position_velocity(self, x) -> tuple[list, list]:
+        """Inertial position [m] and velocity [m/s] as three components each, in the
+        kind's inertial frame (orbital elements and orbit targets read these)."""
+        raise NotImplementedError(f"{self.name} flight has no orbit")
 
     # -- the equations ---------------------------------------------------------------
     def _kinematics(self, x, model) -> dict:
@@ -375,6 +388,13 @@ class Planar(DynamicsKind):
     def air_relative_velocity(self, x, model) -> tuple:
         return x[2], x[3] - model.rotation_rate * x[0]
 
+    def position_velocity(self, x) -> tuple[list, list]:
+        # the plane of flight is the x-y plane, the range angle measured from x
+        c, s = m_.cos(x[1]), m_.sin(x[1])
+        zero = 0.0 * x[0]
+        return ([x[0] * c, x[0] * s, zero],
+                [x[2] * c - x[3] * s, x[2] * s + x[3] * c, zero])
+
     def _kinematics(self, x, model):
         r, vr, vt = x[0], x[2], x[3]
         return dict(radius=r, altitude=r - model.planet.radius, radial_speed=vr,
@@ -405,7 +425,11 @@ class Planar(DynamicsKind):
 
 
 #: the dynamics kinds by problem-file name (``dynamics:``); the loader validates against it
-DYNAMICS: dict[str, DynamicsKind] = {kind.name: kind for kind in (Vertical(), Planar())}
+# the three-dimensional kind lives in a module of its own (it needs the base class above)
+from ascentplan.models.three_dimensional import ThreeDimensional  # noqa: E402
+
+DYNAMICS: dict[str, DynamicsKind] = {kind.name: kind
+                                     for kind in (Vertical(), Planar(), ThreeDimensional())}
 
 
 def dynamics_kind(name_or_kind) -> DynamicsKind:

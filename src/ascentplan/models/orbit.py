@@ -163,3 +163,115 @@ def rotating_azimuth(inclination: float, latitude: float, orbit_speed: float,
     if southerly:
         az = math.pi - az
     return math.atan2(orbit_speed * math.sin(az) - surface_speed, orbit_speed * math.cos(az))
+
+
+def target_radii(target, planet) -> tuple[float, float] | None:
+    """Perigee and apogee radii [m] a target asks for, or None when it names no orbit.
+
+    From ``circular_orbit_altitude``, ``perigee_altitude`` and ``apogee_altitude``
+    (altitudes above the equatorial radius, the convention of orbit catalogues), or
+    ``semi_major_axis`` and ``eccentricity``.
+    """
+    R = planet.radius
+    if getattr(target, "circular_orbit_altitude", None) is not None:
+        r = R + target.circular_orbit_altitude
+        return r, r
+    if getattr(target, "perigee_altitude", None) is not None:
+        return R + target.perigee_altitude, R + target.apogee_altitude
+    if getattr(target, "semi_major_axis", None) is not None:
+        a, e = target.semi_major_axis, target.eccentricity
+        return a * (1.0 - e), a * (1.0 + e)
+    return None
+
+
+def orbit_conditions(r, v, target, planet) -> list[tuple[str, object]]:
+    """Terminal conditions that put a state (r, v) on the target orbit, each of order one.
+
+    Smooth in the state, with no arccos and no quadrant tests, and independent (so the
+    NLP's constraint Jacobian keeps full rank):
+
+    * size and shape: at perigee (``inject_at_perigee``) |r| = r_p, r.v = 0 and
+      |v| = v_p; else the energy v^2/2 - mu/|r| = -mu/(2a) and, unless an argument of
+      perigee is given, |h|^2 = mu p (p the semi-latus rectum); a circular orbit given as
+      perigee = apogee or e = 0 as |r| = r, r.v = 0, |v| = sqrt(mu/r), since |h| and the
+      energy have a stationary point there;
+    * plane: with the node, h normal to the node line and to the in-plane axis 90 deg
+      ahead of it (two conditions: h along the target normal); without it,
+      h_z = |h| cos(i), or h_x = h_y = 0 for an equatorial orbit, where that has a
+      stationary point;
+    * argument of perigee: the eccentricity vector's two in-plane components,
+      e cos(omega) along the node line and e sin(omega) across it, with |h|^2 = mu p.
+
+    Scales: |r| by the planet radius R, speeds by sqrt(mu/R), |h| by sqrt(mu R), the
+    energy by mu/R.
+
+    Parameters
+    ----------
+    r, v : sequences of three components (CasADi symbols or numbers)
+    target : ascentplan.problem.model.Target
+    planet : ascentplan.problem.model.Planet
+
+    Returns
+    -------
+    list of (name, expression)
+        Each expression is zero on the target orbit.
+    """
+    mu, R = planet.gravitational_parameter, planet.radius
+    v_ref = (mu / R) ** 0.5
+    rows = []
+    radii = target_radii(target, planet)
+    rn = dot(r, r) ** 0.5
+    h = cross(r, v)
+    circular_given = getattr(target, "circular_orbit_altitude", None) is not None
+    if radii is not None and not circular_given:
+        rp, ra = radii
+        a, p = 0.5 * (rp + ra), 2.0 * rp * ra / (rp + ra)
+        ecc = (ra - rp) / (ra + rp)
+        if ecc < 1e-9:
+            rows += [("target_altitude", (rn - rp) / R),
+                     ("target_flight_path_angle", dot(r, v) / rn / v_ref),
+                     ("target_speed", (dot(v, v) ** 0.5 - (mu / rp) ** 0.5) / v_ref)]
+        elif target.inject_at_perigee:
+            rows += [("target_perigee_radius", (rn - rp) / R),
+                     ("target_flight_path_angle", dot(r, v) / rn / v_ref),
+                     ("target_perigee_speed",
+                      (dot(v, v) ** 0.5 - (mu * (2.0 / rp - 1.0 / a)) ** 0.5) / v_ref)]
+        else:
+            if target.argument_of_perigee is None:
+                rows.append(("target_energy",
+                             (specific_energy(r, v, mu, rn) + mu / (2.0 * a)) / (mu / R)))
+            rows.append(("target_angular_momentum", (dot(h, h) - mu * p) / (mu * R)))
+    rows += _plane_conditions(h, target, planet, r, v, rn)
+    return rows
+
+
+def _plane_conditions(h, target, planet, r, v, rn) -> list:
+    """Rows fixing the orbit plane and the argument of perigee (see orbit_conditions)."""
+    mu = planet.gravitational_parameter
+    h_ref = (mu * planet.radius) ** 0.5
+    inc = target.inclination
+    if inc is None:
+        return []
+    rows = []
+    node = target.ascending_node
+    if node is not None:
+        n_hat = [math.cos(node), math.sin(node), 0.0]
+        normal = [math.sin(inc) * math.sin(node), -math.sin(inc) * math.cos(node),
+                  math.cos(inc)]
+        m_hat = cross(normal, n_hat)
+        rows += [("target_plane_node", dot(h, n_hat) / h_ref),
+                 ("target_plane_across", dot(h, m_hat) / h_ref)]
+        omega = target.argument_of_perigee
+        if omega is not None:
+            rp, ra = target_radii(target, planet)
+            ecc = (ra - rp) / (ra + rp)
+            e_vec = eccentricity_vector(r, v, mu, rn)
+            rows += [("target_perigee_along_node", dot(e_vec, n_hat) - ecc * math.cos(omega)),
+                     ("target_perigee_across_node", dot(e_vec, m_hat) - ecc * math.sin(omega))]
+    elif abs(math.sin(inc)) > 1e-3:
+        hn = (dot(h, h) + 1e-6 * h_ref * h_ref) ** 0.5
+        rows.append(("target_inclination", (h[2] - math.cos(inc) * hn) / h_ref))
+    else:
+        rows += [("target_plane_x", h[0] / h_ref), ("target_plane_y", h[1] / h_ref)]
+    return rows
+

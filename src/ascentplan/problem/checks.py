@@ -7,6 +7,7 @@ reported again as a consequence elsewhere.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, fields
 from typing import Any
 
@@ -72,6 +73,7 @@ def _cross_checks(r: _Reader, data: dict, parts: _Parts) -> None:
     _check_limits(r, data, parts)
     _check_objective(r, data, parts)
     _check_mass_split(r, data, parts)
+    _check_orbit_reach(r, data, parts)
 
 
 def _check_liftoff(r: _Reader, data: dict, p: _Parts) -> None:
@@ -174,3 +176,47 @@ def _check_mass_split(r: _Reader, data: dict, p: _Parts) -> None:
             r.error("mass_split.liftoff_mass",
                     f"leaves no propellant: payload and fixed dry masses already weigh "
                     f"{_fmt(fixed)} kg, got {_raw(data, 'mass_split', 'liftoff_mass')}")
+
+
+def _check_orbit_reach(r: _Reader, data: dict, p: _Parts) -> None:
+    """An orbit the vehicle can reach from the site, before any solve.
+
+    The plane of an orbit passes through the planet's centre, so a flight from geocentric
+    latitude phi can reach inclinations from |phi| to 180 deg - |phi| only (spherical
+    trigonometry: cos i = cos(phi) sin(Az), Vallado section 6.4), unless a dog-leg
+    allowance lets the flight yaw out of its launch plane. A perigee must clear the
+    surface; a burnout altitude must lie between perigee and apogee.
+    """
+    from ascentplan.models.geodesy import geocentric_latitude
+    from ascentplan.models.orbit import target_radii
+
+    t, planet, launch = p.target, p.planet, p.launch
+    if t is None or planet is None or launch is None:
+        return
+    if t.inclination is not None:
+        lat = abs(geocentric_latitude(launch.latitude, launch.altitude, planet.radius,
+                                      planet.flattening))
+        lowest = max(0.0, lat - launch.dog_leg)
+        highest = min(math.pi, math.pi - lat + launch.dog_leg)
+        if not lowest - 1e-12 <= t.inclination <= highest + 1e-12:
+            r.error("target.inclination",
+                    f"cannot be reached from the launch site: a flight from latitude "
+                    f"{_fmt(math.degrees(launch.latitude))} deg (geocentric "
+                    f"{math.degrees(lat):.4f} deg) reaches inclinations from "
+                    f"{math.degrees(lowest):.4f} to {math.degrees(highest):.4f} deg (launch."
+                    f"dog_leg {_fmt(math.degrees(launch.dog_leg))} deg), got "
+                    f"{_raw(data, 'target', 'inclination')}; expected an inclination in that "
+                    f"range or a launch.dog_leg allowance")
+    radii = target_radii(t, planet)
+    if radii is None:
+        return
+    rp, ra = radii
+    if rp <= planet.radius + max(launch.altitude, 0.0):
+        r.error("target", f"the orbit's perigee radius {_fmt(rp / 1e3)} km is not above the "
+                          f"launch site ({_fmt(planet.radius / 1e3)} km equatorial radius); "
+                          f"expected a perigee above the surface")
+    if t.altitude is not None and not rp - 1.0 <= planet.radius + t.altitude <= ra + 1.0:
+        r.error("target.altitude", f"must lie between the orbit's perigee and apogee altitudes "
+                                   f"({_fmt((rp - planet.radius) / 1e3)} to "
+                                   f"{_fmt((ra - planet.radius) / 1e3)} km), got "
+                                   f"{_raw(data, 'target', 'altitude')}")

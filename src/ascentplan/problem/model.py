@@ -8,7 +8,7 @@ directly is trusted to pass sensible values.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field, fields, replace
 from typing import Any
 
 from ascentplan.constants import G0
@@ -254,14 +254,24 @@ class Launch:
 
     ``pitch_over`` is the pitch angle below vertical [rad] taken at the end of the
     vertical rise by the default schedule and the optimiser's first guess.
-    ``latitude`` only sets the planet-rotation speed of the pad, omega R cos(latitude);
-    the planar model flies due east in the plane of the launch.
+    ``latitude`` (geodetic) sets the planet-rotation speed of the pad, omega R
+    cos(latitude); the planar model flies due east in the plane of the launch. The
+    three-dimensional model starts at rest on the rotating surface at ``latitude``,
+    ``longitude`` and ``altitude`` (above the ellipsoid); ``azimuth`` (from north towards
+    east), when given, is the heading of the pitch-over, else the optimiser chooses it;
+    ``direction`` picks the branch of the first guess's azimuth to an inclined orbit;
+    ``dog_leg`` is how far below the site's latitude the target inclination may be, to
+    be flown by yawing out of the launch plane [rad].
     """
 
     altitude: float = 0.0  # [m]
     latitude: float = 0.0  # [rad]
     vertical_rise: float = 0.0  # [s]
     pitch_over: float = 0.0  # [rad]
+    longitude: float = 0.0  # [rad]
+    azimuth: float | None = None  # [rad]
+    direction: str = "northerly"  # or "southerly"
+    dog_leg: float = 0.0  # [rad]
 
 
 @dataclass(frozen=True)
@@ -285,10 +295,29 @@ class Target:
     speed: float | None = None  # inertial speed [m s^-1]
     flight_path_angle: float | None = None  # inertial, from local horizontal [rad]
     circular_orbit_altitude: float | None = None  # [m]
+    #: orbit size and shape: perigee and apogee altitudes above the equatorial radius [m],
+    #: or semi-major axis [m] and eccentricity [-]
+    perigee_altitude: float | None = None
+    apogee_altitude: float | None = None
+    semi_major_axis: float | None = None
+    eccentricity: float | None = None
+    #: orbit plane [rad]: inclination; ascending node measured eastwards from the launch
+    #: site's meridian at liftoff (the launch frame); argument of perigee from the node
+    inclination: float | None = None
+    ascending_node: float | None = None
+    argument_of_perigee: float | None = None
+    #: burn out at perigee (flight-path angle zero at the perigee radius)
+    inject_at_perigee: bool = False
 
     def is_empty(self) -> bool:
-        return all(v is None for v in (self.altitude, self.speed, self.flight_path_angle,
-                                       self.circular_orbit_altitude))
+        return not self.inject_at_perigee and all(
+            getattr(self, f.name) is None for f in fields(self) if f.name != "inject_at_perigee")
+
+    @property
+    def names_orbit(self) -> bool:
+        """Whether the target names an orbit's size and shape (or a circular orbit)."""
+        return any(v is not None for v in (self.circular_orbit_altitude, self.perigee_altitude,
+                                           self.semi_major_axis))
 
 
 @dataclass(frozen=True)
@@ -318,10 +347,6 @@ class Mesh:
     speed_tolerance: float = 0.5  # [m s^-1]
     speed_tolerance_fraction: float = 5e-4
     limit_tolerance_fraction: float = 5e-3
-    #: weight of the control-smoothness penalty, a fraction of the scaled objective per
-    #: unit of squared node-to-node control change (see
-    #: :func:`ascentplan.transcription.nlp.control_smoothness`); 0 for none [-]
-    control_smoothing: float = 0.0
     #: the NLP holds each path limit this fraction inside its bound (a maximum at
     #: bound (1 - margin), a minimum at bound + margin max(|bound|, floor)), so that the
     #: replay's peaks between nodes stay within the bound itself [-]; 0 imposes the bound

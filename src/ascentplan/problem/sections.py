@@ -9,7 +9,6 @@ refused with the kinds that can use them, as the dynamics registry says.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
 from typing import Any
 
 from ascentplan._registry import REQUIRED, unknown_name_message
@@ -17,6 +16,13 @@ from ascentplan.constants import PLANETS
 from ascentplan.models import aero, atmosphere, gravity
 from ascentplan.models.dynamics import DYNAMICS, DynamicsKind
 from ascentplan.problem.limits import LIMITS
+from ascentplan.problem.orbit_sections import (
+    _read_launch_spatial,
+    _read_orbit_target,
+    _refuse_gravity_without_position,
+    _refused_for_kind,
+    _steered,
+)
 from ascentplan.problem.model import (
     SCHEMES,
     Aerodynamics,
@@ -44,11 +50,13 @@ _PLANET_KEYS = ("name", "radius", "gravitational_parameter", "rotation_rate", "s
                 "flattening", "j2")
 _PLANET_SHAPES = ("ellipsoid", "sphere")
 _AERO_KEYS = ("reference_area", "reference_length", "drag", "drag_scale")
-_LAUNCH_KEYS = ("altitude", "latitude", "vertical_rise", "pitch_over")
-_TARGET_KEYS = ("altitude", "speed", "flight_path_angle", "circular_orbit_altitude")
+_LAUNCH_KEYS = ("altitude", "latitude", "vertical_rise", "pitch_over", "longitude", "azimuth",
+                "direction", "dog_leg")
+_TARGET_KEYS = ("altitude", "speed", "flight_path_angle", "circular_orbit_altitude",
+                "perigee_altitude", "apogee_altitude", "semi_major_axis", "eccentricity",
+                "inclination", "ascending_node", "argument_of_perigee", "inject_at_perigee")
 _MESH_KEYS = ("scheme", "nodes_per_phase", "max_refinements", "speed_tolerance",
-              "speed_tolerance_fraction", "limit_tolerance_fraction", "limit_margin",
-              "control_smoothing")
+              "speed_tolerance_fraction", "limit_tolerance_fraction", "limit_margin")
 _SPLIT_KEYS = ("hold", "liftoff_mass", "map_points")
 _SPLIT_HOLDS = ("liftoff_mass", "payload")
 _SCHEDULE_KEYS = ("time", "throttle", "pitch")
@@ -67,38 +75,6 @@ MAX_MAP_POINTS = 25
 #: wall time of one map point [s]: a cold solve of a two-stage planar problem at 40
 #: nodes per phase took 2.1 s; the warm-started re-solves of a map take less
 _SECONDS_PER_MAP_POINT = 2.0
-
-
-# -- what a dynamics kind can use -------------------------------------------------------
-def _steered(kind: DynamicsKind) -> bool:
-    """Whether a kind steers its thrust, which a pitch, a flight-path angle or an orbit needs."""
-    return kind.steered
-
-
-def _refused_for_kind(r: _Reader, section: dict | None, key: str, path: str,
-                      kind: DynamicsKind | None,
-                      applies: Callable[[DynamicsKind], bool]) -> bool:
-    """Report ``key`` when it is given but the problem's dynamics kind cannot use it.
-
-    Parameters
-    ----------
-    kind : DynamicsKind or None
-        The problem's kind; None (a bad ``dynamics:``) refuses nothing.
-    applies : callable
-        ``applies(kind)``: whether the key means something for a kind.
-
-    Returns
-    -------
-    bool
-        True when the key was refused (and should not be read).
-    """
-    if kind is None or applies(kind) or section is None or section.get(key) is None:
-        return False
-    able = [other.name for other in DYNAMICS.values() if applies(other)]
-    r.error(_join(path, key), f"applies to {' or '.join(able)} flight only (dynamics is "
-                              f"{kind.name}), got {show(section[key])}; remove it or set "
-                              f"dynamics: {able[0]}")
-    return True
 
 
 # -- planet and models ------------------------------------------------------------------
@@ -334,10 +310,12 @@ def _read_launch(r: _Reader, data: dict, kind: DynamicsKind | None, planet: Plan
     if not _refused_for_kind(r, section, "pitch_over", "launch", kind, _steered):
         pitch_over = r.quantity(section, "pitch_over", "launch", "rad", default=0.0, ge=0.0,
                                 le=_HALF_PI, show_unit="deg")
-    if None in (altitude, latitude, rise, pitch_over):
+    spatial = _read_launch_spatial(r, section, kind)
+    _refuse_gravity_without_position(r, data, kind)
+    if None in (altitude, latitude, rise, pitch_over, spatial):
         return None
     return Launch(altitude=altitude, latitude=latitude, vertical_rise=rise,
-                  pitch_over=pitch_over)
+                  pitch_over=pitch_over, **spatial)
 
 
 def _limits_in_reading_order():
@@ -382,6 +360,7 @@ def _read_target(r: _Reader, data: dict, kind: DynamicsKind | None, launch: Laun
     for key, read in steered_keys.items():
         if not _refused_for_kind(r, section, key, "target", kind, _steered):
             values[key] = r.quantity(section, key, "target", **read)
+    _read_orbit_target(r, section, kind, values, orbit_floor, before)
     if section is not None and section.get("circular_orbit_altitude") is not None:
         clash = [k for k in ("altitude", "speed", "flight_path_angle")
                  if section.get(k) is not None]
@@ -418,8 +397,6 @@ def _read_mesh(r: _Reader, data: dict):
                                                gt=0.0, lt=1.0),
         "limit_margin": r.quantity(section, "limit_margin", "mesh", "",
                                    default=defaults.limit_margin, ge=0.0, lt=0.5),
-        "control_smoothing": r.quantity(section, "control_smoothing", "mesh", "",
-                                        default=defaults.control_smoothing, ge=0.0, le=1.0),
     }
     _check_mesh_size(r, values["nodes_per_phase"], values["max_refinements"])
     if len(r.messages) > before:

@@ -53,7 +53,10 @@ class PhaseControls:
         Throttle at the nodes (fraction of full mass flow).
     pitch : numpy.ndarray or None
         Thrust pitch from the local horizontal at the nodes [rad]; required for a burn
-        of the planar model, ignored in rise (held at 90 deg) and coast phases.
+        of a steered kind, ignored in rise (held at 90 deg) and coast phases.
+    heading : numpy.ndarray or None
+        Thrust heading from north towards east at the nodes [rad]; required for a burn
+        of a kind that steers in heading (three-dimensional), ignored elsewhere.
     kind, stage : str or None, int or None
         The phase kind and stage this entry was written for; when given they are
         checked against the phase plan.
@@ -68,6 +71,7 @@ class PhaseControls:
     kind: str | None = None
     stage: int | None = None
     source_lines: tuple | None = field(default=None, compare=False, repr=False)
+    heading: np.ndarray | None = None
 
     def __post_init__(self):
         time = np.asarray(self.time, dtype=float).reshape(-1)
@@ -95,6 +99,12 @@ class PhaseControls:
             if not np.all(np.isfinite(pitch)):
                 raise ScheduleError("phase pitch: must be finite")
             object.__setattr__(self, "pitch", pitch)
+        if self.heading is not None:
+            heading = np.asarray(self.heading, dtype=float).reshape(-1)
+            if heading.shape != time.shape or not np.all(np.isfinite(heading)):
+                raise ScheduleError(f"phase heading: expected {time.size} finite values (one "
+                                    f"per node), got {heading.size}")
+            object.__setattr__(self, "heading", heading)
 
 
 @dataclass(frozen=True)
@@ -207,7 +217,8 @@ def check_schedule(problem, plan, schedule) -> None:
     if len(schedule.phases) != len(plan):
         raise ScheduleError(f"schedule: has {len(schedule.phases)} phases, the phase plan has "
                          f"{len(plan)} ({', '.join(p.kind for p in plan)})")
-    steered = dynamics.dynamics_kind(problem.dynamics).steered
+    kind = dynamics.dynamics_kind(problem.dynamics)
+    steered = kind.steered
     for k, (pc, phase) in enumerate(zip(schedule.phases, plan)):
         if pc.kind is not None and pc.kind != phase.kind:
             raise ScheduleError(f"schedule phase {k}: kind {pc.kind!r}, the plan has "
@@ -218,6 +229,9 @@ def check_schedule(problem, plan, schedule) -> None:
         if steered and phase.kind == "burn" and pc.pitch is None:
             raise ScheduleError(f"schedule phase {k}: a {problem.dynamics} burn needs a pitch at "
                              f"each node")
+        if kind.has_control("heading") and phase.kind == "burn" and pc.heading is None:
+            raise ScheduleError(f"schedule phase {k}: a {problem.dynamics} burn needs a heading "
+                                f"at each node")
 
 
 def _check_time_schedule(schedule: TimeSchedule) -> None:
@@ -347,18 +361,23 @@ def _node_place(pc: PhaseControls, k: int, j: int, t: float, phase, stage) -> st
 
 
 class _Rule:
-    """Throttle(t) and, when steered, pitch(t, x); returns a list of controls."""
+    """Throttle(t) and, when steered, pitch(t, x) (and heading(t, x) when the kind steers
+    in heading); returns a list of controls."""
 
-    __slots__ = ("throttle", "pitch")
+    __slots__ = ("throttle", "pitch", "heading")
 
-    def __init__(self, throttle: Callable, pitch: Callable | None):
+    def __init__(self, throttle: Callable, pitch: Callable | None,
+                 heading: Callable | None = None):
         self.throttle = throttle
         self.pitch = pitch
+        self.heading = heading
 
     def __call__(self, t, x):
         if self.pitch is None:
             return [self.throttle(t)]
-        return [self.throttle(t), self.pitch(t, x)]
+        if self.heading is None:
+            return [self.throttle(t), self.pitch(t, x)]
+        return [self.throttle(t), self.pitch(t, x), self.heading(t, x)]
 
     def sample(self, t, x) -> np.ndarray:
         """Controls at sample times ``t`` (N,) and states ``x`` (n, N) as an (n_u, N) array."""
@@ -366,7 +385,7 @@ class _Rule:
 
     def engine_off(self) -> _Rule:
         """The same steering with the throttle at zero (a stage that ran dry)."""
-        return _Rule(_Constant(0.0), self.pitch)
+        return _Rule(_Constant(0.0), self.pitch, self.heading)
 
 
 class _Constant:
@@ -394,15 +413,31 @@ class _Interp:
 
 
 class _AirPath:
-    """Pitch along the air-relative velocity: zero angle of attack."""
+    """Steering control ``index`` (0 pitch, 1 heading) along the air-relative velocity:
+    zero angle of attack."""
 
-    __slots__ = ("model",)
+    __slots__ = ("model", "index")
 
-    def __init__(self, model):
+    def __init__(self, model, index: int = 0):
         self.model = model
+        self.index = index
 
     def __call__(self, t, x):
-        return self.model.kind.air_pitch(x, self.model)
+        return self.model.kind.air_steering(x, self.model)[self.index]
+
+
+class _PlaneHeading:
+    """Heading that keeps the thrust in a plane of unit normal ``normal`` (inertial): along
+    normal x up, the direction of motion in that plane (the default three-dimensional
+    steering and the first guess)."""
+
+    __slots__ = ("kind", "normal")
+
+    def __init__(self, kind, normal):
+        self.kind, self.normal = kind, np.asarray(normal, dtype=float)
+
+    def __call__(self, t, x):
+        return self.kind.plane_heading(x, self.normal)
 
 
 class ControlLaw:
@@ -509,6 +544,23 @@ class ControlLaw:
             throttle = _Constant(stage.throttle_max)
         if not self.steered:
             return _Rule(throttle, None)
+        return _Rule(throttle, self._pitch_rule(k, t0, mode, pc),
+                     self._heading_rule(k, t0, mode, pc))
+
+    def _heading_rule(self, k, t0: float, mode: str, pc):
+        """Heading of a kind that steers in heading (None for the others): the schedule's
+        in a burn it gives, along the air in a coast, else in the launch plane."""
+        kind = self.model.kind
+        if not kind.has_control("heading"):
+            return None
+        if mode == "coast":
+            return _AirPath(self.model, 1)
+        if mode in ("fly", "turn") and pc is not None and pc.heading is not None:
+            return _Interp(t0, pc.time, pc.heading)
+        return _PlaneHeading(kind, kind.launch_plane_normal(self.problem))
+
+    def _pitch_rule(self, k, t0: float, mode: str, pc):
+        """Pitch of a steered kind in ``mode``."""
         if mode == "rise":
             pitch = _Constant(0.5 * np.pi)
         elif mode in ("coast", "turn"):
@@ -519,5 +571,5 @@ class ControlLaw:
             pitch = _Interp(t0, pc.time, pc.pitch)
         else:
             pitch = _Interp(0.0, self.time_nodes, self.time_pitch)
-        return _Rule(throttle, pitch)
+        return pitch
 

@@ -19,9 +19,9 @@ _FREE_DURATION = (1e-3, 50.0)
 #: for each quantity that sets a variable scale, the states that carry it, most telling
 #: first; a kind's first state in this list gives the quantity its scale
 _CARRIERS = {
-    "altitude": ("altitude", "radius"),
-    "speed": ("horizontal_speed", "vertical_speed"),
-    "radial_speed": ("radial_speed", "vertical_speed"),
+    "altitude": ("altitude", "radius", "position_x"),
+    "speed": ("horizontal_speed", "vertical_speed", "velocity_x"),
+    "radial_speed": ("radial_speed", "vertical_speed", "velocity_x"),
     "mass": ("mass",),
 }
 
@@ -64,7 +64,11 @@ def control_bounds(kind, phase: Phase, stage) -> tuple[list, list]:
         pitch = (-0.5 * np.pi, 0.5 * np.pi)
     else:
         pitch = (0.0, 0.0)
-    bounds = {"throttle": throttle, "pitch": pitch}
+    # heading: free over two turns while powered (a southerly or retrograde azimuth needs
+    # no wrap-around); held at zero in the rise, where the thrust is vertical whatever the
+    # heading, and in a coast, where there is no thrust: no direction without an effect
+    heading = (-2.0 * np.pi, 2.0 * np.pi) if phase.kind == "burn" else (0.0, 0.0)
+    bounds = {"throttle": throttle, "pitch": pitch, "heading": heading}
     names = kind.control_names
     return [bounds[n][0] for n in names], [bounds[n][1] for n in names]
 
