@@ -112,7 +112,10 @@ def test_limit_sweep_rows_in_order_optimal_and_objective_non_decreasing(sweep_ru
     assert sorted(r["index"] for r in _jsonl(out / STUDY_JSONL)) == [0, 1, 2, 3]
     table = _csv(out / STUDY_CSV)
     assert sorted(int(r["index"]) for r in table) == [0, 1, 2, 3]
-    assert "max_dynamic_pressure.shadow_price" in table[0]
+    # every column of a quantity names its unit, the limit's user unit (kPa, not Pa)
+    assert "max_dynamic_pressure.shadow_price [m/s per kPa]" in table[0]
+    assert [float(r["limits.max_dynamic_pressure [kPa]"]) for r in
+            sorted(table, key=lambda r: int(r["index"]))] == [20.0, 25.0, 30.0, 35.0]
     meta = json.loads((out / STUDY_JSON).read_text())
     assert meta["points"] == study.points and len(meta["problem_sha256"]) == 64
 
@@ -198,9 +201,11 @@ def test_dispersion_reproducible_from_seed(problem_file):
     c = dispersion(problem_file, spreads, samples=50, seed=8)
     assert a.points == b.points
     assert a.points != c.points
-    # more samples keep the first ones (an extended study resumes)
+    # more samples keep the first ones (an extended study resumes); point 0 is the nominal
     longer = dispersion(problem_file, spreads, samples=80, seed=7)
-    assert longer.points[:50] == a.points
+    assert len(a.points) == 51 and longer.points[:51] == a.points
+    assert a.points[0] == {"vehicle.stages[0].thrust_vacuum": 90e3,
+                           "vehicle.stages[0].dry_mass": 400.0}
     # a key's draws do not depend on the other keys
     alone = dispersion(problem_file, {"vehicle.stages[0].dry_mass": ("uniform", 0.05)},
                        samples=50, seed=7)

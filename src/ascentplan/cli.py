@@ -288,23 +288,52 @@ def _add_solve(subparsers) -> None:
     p.set_defaults(handler=_cmd_solve)
 
 
+def _speed_argument(text: str) -> float:
+    """A speed on the command line, with its unit ("9.2 km/s"; a bare number is m/s)."""
+    from ascentplan.output.split_record import speed_from_text
+
+    try:
+        return speed_from_text(text, "--delta-v")
+    except ValueError as exc:
+        # argparse names the option itself
+        raise argparse.ArgumentTypeError(str(exc).removeprefix("--delta-v: ")) from None
+
+
 def _cmd_split(args) -> int:
     problem = load_problem(args.file)
     from ascentplan.cautions import CAUTION
+    from ascentplan.output.atomic import write_text
+    from ascentplan.output.split_record import split_json, split_record
     from ascentplan.staging.rocket_equation import StagingError, format_split, split_for_vehicle
 
+    payload = problem.vehicle.payload_mass
+    if not payload > 0.0:
+        # the rocket equation sizes each stage by the mass above it: without a payload
+        # the optimum is no vehicle at all
+        _say(f"{args.file}: vehicle.payload_mass: must be > 0 kg for a stage split (each "
+             f"stage is sized by the mass above it), got {payload:g} kg")
+        return EXIT_BAD_INPUT
+    delta_v = args.delta_v
     hold = args.hold or (problem.mass_split.hold if problem.mass_split else "liftoff_mass")
     try:
-        split = split_for_vehicle(problem.vehicle, delta_v=args.delta_v, hold=hold)
+        split = split_for_vehicle(problem.vehicle, delta_v=delta_v, hold=hold)
     except StagingError as exc:
         _say(f"{args.file}: {exc}")
         return 3
     except ValueError as exc:  # a bad combination of options
         _say(f"{args.file}: {exc}")
         return EXIT_BAD_INPUT
+    text = split_json(split_record(problem, split, hold, delta_v))
+    if args.json is not None:
+        write_text(args.json, text)
+    if args.format == "json":
+        print(text, end="")  # JSON escapes control characters itself
+        return 0
     _show(f"Rocket-equation stage split of {problem.name} ({hold.replace('_', ' ')} held; "
           "no gravity, drag or limits)")
     _show(format_split(split))
+    if args.json is not None:
+        _show(f"wrote {args.json}")
     _show(CAUTION)
     return 0
 
@@ -312,17 +341,23 @@ def _cmd_split(args) -> int:
 def _add_split(subparsers) -> None:
     p = subparsers.add_parser(
         "split", help="optimal stage mass split by the rocket equation (no trajectory)",
-        description="The Lagrange-multiplier optimum split of the stage masses for the "
-                    "vehicle in FILE: with the liftoff mass held (maximum ideal velocity) or "
-                    "the payload held (minimum liftoff mass for --delta-v). Exit status 3 if "
-                    "no split can reach the velocity.")
+        description="The Lagrange-multiplier optimum stage split of the vehicle in FILE: "
+                    "liftoff mass held (maximum ideal velocity increment) or payload held "
+                    "(minimum liftoff mass for --delta-v); as text, or as JSON on stdout "
+                    "(--format json) or in a file (--json FILE). Exit status 0, 2 bad "
+                    "input (a payload of 0 kg too), 3 if no split reaches the velocity.")
     p.add_argument("file", metavar="FILE", type=_path_argument, help="YAML problem file")
     p.add_argument("--hold", choices=("liftoff_mass", "payload"), default=None,
                    help="what stays fixed (default: the file's mass_split.hold, else "
                         "liftoff_mass)")
-    p.add_argument("--delta-v", type=float, default=None, metavar="M_S",
-                   help="required ideal velocity increment [m/s] with --hold payload "
-                        "(default: the vehicle's own as written)")
+    p.add_argument("--delta-v", default=None, metavar="SPEED", type=_speed_argument,
+                   help="required ideal velocity increment with --hold payload, with its "
+                        "unit ('9.2 km/s'; a bare number is m/s; default: the vehicle's "
+                        "own as written)")
+    p.add_argument("--format", choices=("text", "json"), default="text",
+                   help="text (default) or json on standard output")
+    p.add_argument("--json", metavar="FILE", default=None, type=_path_argument,
+                   help="also write the split as JSON to FILE")
     p.set_defaults(handler=_cmd_split)
 
 
@@ -342,7 +377,9 @@ def _add_report(subparsers) -> None:
     p = subparsers.add_parser(
         "report", help="render report.html from an existing results folder",
         description="Render a self-contained HTML report from the summary.json and plots in "
-                    "a results folder written by 'solve'.")
+                    "a results folder written by 'solve' or 'simulate', from those files "
+                    "alone (the summary restates the problem's inputs). Exit status 0, or 2 "
+                    "when the folder has no usable summary.json.")
     p.add_argument("folder", metavar="DIR", type=_path_argument, help="results folder")
     p.set_defaults(handler=_cmd_report)
 
@@ -408,8 +445,40 @@ def _add_sweep(subparsers) -> None:
     p.set_defaults(handler=_cmd_sweep)
 
 
+def _cmd_schema(args) -> int:
+    from ascentplan.problem.schema import schema_text
+
+    text = schema_text()
+    if args.out is None:
+        _show(text, end="")
+        return 0
+    from ascentplan.output.atomic import write_text
+
+    try:
+        write_text(Path(args.out), text)
+    except OSError as exc:
+        _say(f"--out {args.out}: cannot write the schema: {exc.strerror or exc}")
+        return EXIT_BAD_INPUT
+    _show(f"schema written to {args.out}")
+    return 0
+
+
+def _add_schema(subparsers) -> None:
+    p = subparsers.add_parser(
+        "schema", help="print the JSON Schema of the problem file",
+        description="Print the JSON Schema (draft 2020-12) of a problem file, generated from "
+                    "the loader's own rules and the model, limit and objective registries, "
+                    "for an editor's completion and checking (keys, names, units). Rules "
+                    "across keys, unit dimensions and value ranges are checked by "
+                    "'ascentplan check'. Exit status 0, or 2 when --out cannot be written.")
+    p.add_argument("--out", metavar="FILE", default=None, type=_path_argument,
+                   help="write the schema to FILE instead of standard output")
+    p.set_defaults(handler=_cmd_schema)
+
+
 #: each verb adds its own parser; a new verb is one more function here
-_VERBS = (_add_check, _add_simulate, _add_solve, _add_split, _add_report, _add_sweep)
+_VERBS = (_add_check, _add_simulate, _add_solve, _add_split, _add_report, _add_sweep,
+          _add_schema)
 
 
 class _Parser(argparse.ArgumentParser):

@@ -34,11 +34,33 @@ _TANGENT_FRACTION = 0.35
 _MAP_RESOLUTION = 241
 
 
-def _figure(size=(7.5, 4.8)) -> tuple[Figure, object]:
+def _figure(size=(7.5, 4.8), box=(0.12, 0.17, 0.84, 0.72)) -> tuple[Figure, object]:
     fig = Figure(figsize=size)
     FigureCanvasAgg(fig)
-    ax = fig.add_axes((0.12, 0.17, 0.84, 0.72))
+    ax = fig.add_axes(box)
     return fig, ax
+
+
+def _pad(ax, xs: list, ys: list) -> None:
+    """Room around the grid so that the points on its edges are seen whole."""
+    for values, setter in ((xs, ax.set_xlim), (ys, ax.set_ylim)):
+        if len(values) >= 2:
+            room = 0.04 * (values[-1] - values[0])
+            setter(values[0] - room, values[-1] + room)
+
+
+def _label_optimum(ax, best, xs: list, ys: list, unit: str) -> None:
+    """The optimum's star and value, the label turned towards the middle of the map."""
+    ax.plot(best[0], best[1], "*", color="white", markeredgecolor="k", markersize=16,
+            zorder=5)
+    right = len(xs) >= 2 and best[0] > 0.5 * (xs[0] + xs[-1])
+    high = len(ys) >= 2 and best[1] > 0.5 * (ys[0] + ys[-1])
+    ax.annotate(printable(f"optimum {best[2]:.6g} {unit}") + "\n"
+                + printable(f"at {best[0]:.5g}, {best[1]:.5g}"),
+                (best[0], best[1]), textcoords="offset points",
+                xytext=(-10 if right else 10, -10 if high else 10),
+                ha="right" if right else "left", va="top" if high else "bottom",
+                fontsize=8, bbox=dict(boxstyle="round", fc="white", alpha=0.85), zorder=6)
 
 
 def _stamp(fig: Figure, title: str) -> None:
@@ -119,7 +141,7 @@ def plot_performance_curve(points: list, key: str, unit: str, objective: str,
 def _grid(cells: list, xs: list, ys: list) -> np.ndarray:
     """The objective on the grid of ``xs`` by ``ys`` (NaN where a point has none)."""
     z = np.full((len(xs), len(ys)), np.nan)
-    for x, y, value in cells:
+    for x, y, value, _ in cells:
         if value is None or x is None or y is None:
             continue
         i = int(np.argmin(np.abs(np.asarray(xs) - x)))
@@ -156,7 +178,7 @@ def plot_performance_map(cells: list, axes: list, objective: str, objective_unit
     path : str or pathlib.Path
     title : str
     """
-    fig, ax = _figure((7.5, 5.6))
+    fig, ax = _figure((7.5, 5.6), (0.12, 0.13, 0.66, 0.77))
     xs = sorted(v for v in axes[0]["values"] if v is not None)
     ys = sorted(v for v in axes[1]["values"] if v is not None)
     z = _grid(cells, xs, ys)
@@ -169,19 +191,18 @@ def plot_performance_map(cells: list, axes: list, objective: str, objective_unit
         filled = ax.contourf(gx, gy, fine, levels=14, cmap="viridis")
         ax.contour(gx, gy, fine, levels=filled.levels, colors="k", linewidths=0.4,
                    alpha=0.5)
-        bar = fig.colorbar(filled, ax=ax, pad=0.02)
+        bar = fig.colorbar(filled, cax=fig.add_axes((0.82, 0.13, 0.03, 0.77)))
         bar.set_label(printable(f"{objective} [{objective_unit}]"))
     good = [c for c in cells if c[3]]
     bad = [c for c in cells if not c[3]]
-    ax.plot([c[0] for c in good], [c[1] for c in good], "o", color="k", markersize=3)
-    ax.plot([c[0] for c in bad], [c[1] for c in bad], "x", color="C3", markersize=7)
+    ax.plot([c[0] for c in good], [c[1] for c in good], "o", color="k", markersize=3,
+            zorder=4)
+    ax.plot([c[0] for c in bad], [c[1] for c in bad], "x", color="C3", markersize=7,
+            zorder=4)
+    _pad(ax, xs, ys)
     best = _optimum(cells, maximise)
     if best is not None:
-        ax.plot(best[0], best[1], "*", color="white", markeredgecolor="k", markersize=16)
-        ax.annotate(printable(f"optimum {best[2]:.6g} {objective_unit}\n"
-                              f"at {best[0]:.5g}, {best[1]:.5g}"),
-                    (best[0], best[1]), textcoords="offset points", xytext=(8, 8),
-                    fontsize=8, bbox=dict(boxstyle="round", fc="white", alpha=0.85))
+        _label_optimum(ax, best, xs, ys, objective_unit)
     ax.set_xlabel(printable(f"{axes[0]['key']} [{axes[0]['unit'] or '-'}]"))
     ax.set_ylabel(printable(f"{axes[1]['key']} [{axes[1]['unit'] or '-'}]"))
     note = f" ({len(bad)} grid point(s) without a verified optimum: x)" if bad else ""

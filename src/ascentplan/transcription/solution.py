@@ -75,6 +75,9 @@ class NLPSolution:
     binding: list = field(default_factory=list)
     #: the elastic form only: per condition its ``slack`` and the ``phases`` that need it
     slacks: dict = field(default_factory=dict)
+    #: the control-smoothness penalty at the solution, in the objective's SI unit (0 when
+    #: ``mesh.control_smoothing`` is 0); :attr:`objective` does not include it
+    smoothing_penalty: float = 0.0
 
     @staticmethod
     def status_of(return_status: str, success: bool, violation: float) -> str:
