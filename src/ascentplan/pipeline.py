@@ -182,6 +182,22 @@ class Result:
                              "the replay's check of it is target_miss")
         return block
 
+    def control_smoothing(self) -> dict:
+        """The control-smoothness penalty (``mesh.control_smoothing``) and what it costs.
+
+        ``weight`` as written; ``penalty`` in the objective's unit (>= 0);
+        ``objective_without_penalty`` is the objective as named (summary ``objective``);
+        ``objective_with_penalty`` what the optimiser traded: the objective lowered by the
+        penalty when maximised, raised when minimised.
+        """
+        spec = OBJECTIVE_SPECS[self.problem.objective]
+        weight = float(getattr(self.problem.mesh, "control_smoothing", 0.0))
+        penalty = float(getattr(self.solution, "smoothing_penalty", 0.0)) / spec.divisor
+        value = self.objective_value / spec.divisor
+        return {"weight": weight, "penalty": penalty, "unit": spec.unit,
+                "objective_without_penalty": value,
+                "objective_with_penalty": value - spec.sense * penalty}
+
     def summary(self) -> dict:
         """The summary.json content (keys documented in the README)."""
         v = self.verification
@@ -190,6 +206,7 @@ class Result:
             "status": self.status,
             "message": self.message,
             "objective": self._objective_block(),
+            "control_smoothing": self.control_smoothing(),
             "burnout": self.burnout(),
             "limits": self.limits(),
             "verification": {

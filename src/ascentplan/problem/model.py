@@ -347,6 +347,10 @@ class Mesh:
     speed_tolerance: float = 0.5  # [m s^-1]
     speed_tolerance_fraction: float = 5e-4
     limit_tolerance_fraction: float = 5e-3
+    #: weight of the control-smoothness penalty, a fraction of the scaled objective per
+    #: unit of squared node-to-node control change (see
+    #: :func:`ascentplan.transcription.nlp.control_smoothness`); 0 for none [-]
+    control_smoothing: float = 0.0
     #: the NLP holds each path limit this fraction inside its bound (a maximum at
     #: bound (1 - margin), a minimum at bound + margin max(|bound|, floor)), so that the
     #: replay's peaks between nodes stay within the bound itself [-]; 0 imposes the bound

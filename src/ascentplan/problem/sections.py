@@ -56,7 +56,8 @@ _TARGET_KEYS = ("altitude", "speed", "flight_path_angle", "circular_orbit_altitu
                 "perigee_altitude", "apogee_altitude", "semi_major_axis", "eccentricity",
                 "inclination", "ascending_node", "argument_of_perigee", "inject_at_perigee")
 _MESH_KEYS = ("scheme", "nodes_per_phase", "max_refinements", "speed_tolerance",
-              "speed_tolerance_fraction", "limit_tolerance_fraction", "limit_margin")
+              "speed_tolerance_fraction", "limit_tolerance_fraction", "limit_margin",
+              "control_smoothing")
 _SPLIT_KEYS = ("hold", "liftoff_mass", "map_points")
 _SPLIT_HOLDS = ("liftoff_mass", "payload")
 _SCHEDULE_KEYS = ("time", "throttle", "pitch")
@@ -397,6 +398,8 @@ def _read_mesh(r: _Reader, data: dict):
                                                gt=0.0, lt=1.0),
         "limit_margin": r.quantity(section, "limit_margin", "mesh", "",
                                    default=defaults.limit_margin, ge=0.0, lt=0.5),
+        "control_smoothing": r.quantity(section, "control_smoothing", "mesh", "",
+                                        default=defaults.control_smoothing, ge=0.0, le=1.0),
     }
     _check_mesh_size(r, values["nodes_per_phase"], values["max_refinements"])
     if len(r.messages) > before:

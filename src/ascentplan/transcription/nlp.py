@@ -49,7 +49,8 @@ from ascentplan.transcription.phases import (
 from ascentplan.transcription.solution import Guess, NLPSolution
 
 __all__ = ["ACCELERATE_MAX_VARIABLES", "ELASTIC_OPTIONS", "IPOPT_OPTIONS", "WARM_START_OPTIONS",
-           "AscentNLP", "Guess", "NLPSolution", "nodes_for_phase", "structure_key"]
+           "AscentNLP", "Guess", "NLPSolution", "control_smoothness", "nodes_for_phase",
+           "structure_key"]
 
 #: IPOPT options: MUMPS (shipped with CasADi), exact Hessian, and the adaptive barrier
 #: update, which on the scaled examples took 20-35 % fewer iterations than the monotone
@@ -100,9 +101,45 @@ def structure_key(problem: Problem) -> tuple:
     return (problem.dynamics, problem.planet, problem.atmosphere, problem.gravity,
             problem.aerodynamics, problem.launch, stages, tuple(problem.limits.active_names()),
             problem.target, problem.objective, problem.mesh.scheme, problem.mesh.nodes_per_phase,
+            problem.mesh.control_smoothing,
             problem.mesh.limit_margin,
             None if problem.mass_split is None else (problem.mass_split.hold,
                                                      problem.mass_split.proportional))
+
+
+def control_smoothness(problem: Problem, controls) -> object:
+    """The sum of squared differences of neighbouring node controls, each control divided
+    by its range on its phase [-].
+
+    S = sum over phases, controls c with a range r_c > 0 (the throttle range of a
+    powered phase's stage, pi for the pitch of a burn) and intervals k of
+    ((u_c,k+1 - u_c,k) / r_c)^2. A control that jumps across its whole range once adds
+    1; a schedule that follows a smooth function adds O(1/N) on N nodes, so the term
+    vanishes as the mesh is refined while node-to-node chatter keeps its cost.
+
+    Parameters
+    ----------
+    problem : Problem
+    controls : list of array (n_u, N) per phase
+        Node controls of each phase of :func:`~ascentplan.problem.phase_plan`, numpy
+        arrays or CasADi symbols.
+
+    Returns
+    -------
+    float or CasADi expression
+    """
+    total = 0.0
+    kind = dynamics.dynamics_kind(problem.dynamics)
+    for phase, U in zip(phase_plan(problem), controls):
+        stage = problem.vehicle.stages[phase.stage]
+        lower, upper = control_bounds(kind, phase, stage)
+        for c, (low, high) in enumerate(zip(lower, upper)):
+            if not high - low > 0.0 or U.shape[1] < 2:
+                continue
+            step = (U[c, 1:] - U[c, :-1]) / (high - low)
+            total = total + (ca.sumsqr(step) if isinstance(step, (ca.MX, ca.SX))
+                             else float(np.sum(np.square(step))))
+    return total
 
 
 @dataclass(frozen=True)
@@ -396,9 +433,24 @@ class AscentNLP:
         self.objective_sense = spec.sense  # +1 maximise, -1 minimise
         # IPOPT minimises f
         self.f = -spec.sense * self.objective_expr / self.objective_scale
+        # the smoothness penalty is a fraction mesh.control_smoothing of the scaled
+        # objective per unit of control_smoothness: chatter between nodes costs little
+        # objective to remove, a genuine switch of the optimum costs the penalty weight
+        self.smoothing_weight = float(getattr(self.problem.mesh, "control_smoothing", 0.0))
+        if self.smoothing_weight > 0.0:
+            self.f = self.f + self.smoothing_weight * control_smoothness(
+                self.problem, [sym.controls for sym in self.phase_vars])
         if self.elastic:
             # meet as much as can be met first; the objective only picks among the rest
             self.f = self.conditions.penalty + OBJECTIVE_WEIGHT * self.f
+
+    def smoothing_penalty(self, controls) -> float:
+        """The smoothness penalty of node ``controls`` in the objective's SI unit (>= 0):
+        weight x :func:`control_smoothness` x the objective's scale."""
+        if self.smoothing_weight == 0.0:
+            return 0.0
+        return (self.smoothing_weight * control_smoothness(self.problem, controls)
+                * self.objective_scale)
 
     def _finish(self, masses: StackMasses) -> None:
         """The vectors and bounds handed to IPOPT, the solver, and the helper functions."""
@@ -527,10 +579,15 @@ class AscentNLP:
         viol = float(np.max(np.concatenate([[0.0], self.lbg - gval, gval - self.ubg])))
         ret = stats.get("return_status", "unknown")
         success = bool(stats.get("success", False))
+        penalty = self.smoothing_penalty(controls)
+        # the objective as named, without the smoothness penalty IPOPT minimised with it
+        objective = -self.objective_sense * float(sol["f"]) * self.objective_scale
+        if not self.elastic:
+            objective += self.objective_sense * penalty
         return NLPSolution(
             status=NLPSolution.status_of(ret, success, viol), return_status=ret,
             success=success, iterations=int(stats.get("iter_count", -1)), solve_time=elapsed,
-            objective=float(-self.objective_sense * float(sol["f"]) * self.objective_scale),
+            objective=float(objective), smoothing_penalty=float(penalty),
             durations=durations, times=times, states=states, controls=controls,
             payload_mass=float(payload[0]), propellant=list(prop), dry=list(dry),
             shadow_prices=shadow, constraint_violation=viol,
