@@ -256,11 +256,13 @@ def test_new_summary_blocks_are_rendered_when_present():
             {"input": "vehicle.stages[0].dry_mass", "label": "stage 'first' dry mass",
              "value": -0.4, "unit": "m/s per kg", "objective_unit": "m/s",
              "input_unit": "kg"}],
-        "target_miss": [
-            {"name": "altitude", "target_km": 200.0, "replayed_km": 199.998, "miss_m": -1.6,
-             "tolerance_m": 100.0, "passed": True},
-            {"name": "flight_path_angle", "target_deg": 0.0, "replayed_deg": 0.02,
-             "miss_deg": 0.02, "tolerance_deg": 0.01, "passed": False}],
+        # the shape the pipeline writes: conditions by name, each key with its unit
+        "target_miss": {"passed": False, "conditions": {
+            "altitude": {"written_m": 200e3, "replayed_m": 199998.4, "miss_m": -1.6,
+                         "tolerance_m": 100.0, "passed": True},
+            "flight_path_angle": {"written_deg": 0.0, "replayed_deg": 0.02,
+                                  "miss_deg": 0.02, "tolerance_deg": 0.01, "passed": False}},
+            "circular_orbit": None},
         "verification": {"passed": True, "reasons": []},
     }
     page = render_html(summary)
@@ -271,10 +273,13 @@ def test_new_summary_blocks_are_rendered_when_present():
     assert "vehicle.stages[0].isp_vacuum 31.0000 m/s per s" in ratios
     verification = _section(page, "Verification by forward integration")
     assert "Target miss of the replay" in verification
-    assert "<th>miss [m]</th>" in verification and "<th>tolerance [deg]</th>" in verification
-    assert '<tr class="flag"><td>flight path angle</td>' in verification
+    assert ("<tr><td>altitude</td><td>m</td><td class=\"num\">200,000.0000</td>"
+            "<td class=\"num\">199,998.4000</td><td class=\"num\">-1.6000</td>"
+            "<td class=\"num\">100.0000</td><td>yes</td></tr>") in verification
+    assert '<tr class="flag"><td>flight path angle</td><td>deg</td>' in verification
     limits = _section(page, "Limits")
-    assert "<th>excess [% of bound]</th>" in limits and "<th>tolerance [% of bound]</th>" in limits
+    for header in ("excess", "tolerance", "margin"):
+        assert f"<th>{header} [% of bound]</th>" in limits
     assert "Other results" not in page
     # a summary without them (an older folder) renders without those sections
     for key in ("exchange_ratios", "target_miss"):

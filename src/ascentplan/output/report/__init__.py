@@ -28,7 +28,8 @@ REPORT_NAME = "report.html"
 _KNOWN_KEYS = {"problem", "dynamics", "status", "message", "objective", "burnout", "apogee",
                "limits", "verification", "stages", "payload_mass_kg", "liftoff_mass_kg",
                "solver", "losses_m_s", "peaks", "phases", "events", "caution", "mass_split",
-               "infeasibility", "inputs", "provenance", "exchange_ratios", "target_miss"}
+               "infeasibility", "inputs", "provenance", "exchange_ratios", "target_miss",
+               "control_smoothing"}
 
 #: PNG file stems in the order the report shows them (overview first) when the plots
 #: module does not publish its own order; others follow
@@ -98,7 +99,8 @@ _SECTIONS = (verdict.status_box, verdict.must_give_section, verdict.objective_se
              verdict.flight_section, verdict.limits_section, verdict.verification_section,
              verdict.exchange_ratios_section, details.stages_section,
              details.propellant_section, details.losses_section, details.split_section,
-             problem_section, details.solver_section, details.peaks_section,
+             problem_section, details.solver_section, details.smoothing_section,
+             details.peaks_section,
              details.phases_section, details.events_section, _other_section)
 
 

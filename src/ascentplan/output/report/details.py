@@ -109,6 +109,23 @@ def solver_section(summary: dict) -> str:
     return section("Solver", key_values(rows))
 
 
+def smoothing_section(summary: dict) -> str:
+    """The control-smoothness penalty and what it costs, when one was imposed."""
+    block = summary.get("control_smoothing")
+    if not isinstance(block, dict) or not block.get("weight"):
+        return ""
+    unit = block.get("unit", "")
+    rows = [("weight", cell(block.get("weight"), 6)),
+            (f"penalty [{unit}]", num(block.get("penalty"), 4)),
+            (f"objective without the penalty [{unit}]",
+             num(block.get("objective_without_penalty"), 3)),
+            (f"objective with the penalty, as optimised [{unit}]",
+             num(block.get("objective_with_penalty"), 3))]
+    return section("Control smoothing", key_values(rows) + "\n" + note(
+        "A penalty on the differences of neighbouring node controls keeps the schedule "
+        "free of chatter; the penalty is what it costs in the objective."))
+
+
 def _peak_value(peak: dict) -> tuple[str, str]:
     """(value, unit) of a peak in the unit of its limit."""
     for key, (unit, divisor) in _PEAK_VALUES.items():

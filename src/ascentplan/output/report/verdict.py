@@ -14,6 +14,7 @@ from ascentplan.output.report.markup import (
     num,
     percent,
     section,
+    split_unit,
     table,
     words,
     yes_no,
@@ -141,21 +142,24 @@ def limits_section(summary: dict) -> str:
                num(lim.get("peak"), 3), num(lim.get("peak_time_s"), 2)]
         if with_excess:
             row += [percent(_first(lim, "excess_fraction", "excess"), 3),
-                    percent(_first(lim, "tolerance_fraction", "tolerance"), 2)]
+                    percent(_first(lim, "tolerance_fraction", "tolerance"), 2),
+                    percent(lim.get("margin_fraction"), 2)]
         row += [yes_no(lim.get("active")), num(lim.get("shadow_price"), 4),
                 lim.get("shadow_price_unit", "")]
         rows.append(row)
     header = ["limit", "unit", "bound", "peak", "peak at [s]"]
-    header += ["excess [% of bound]", "tolerance [% of bound]"] if with_excess else []
+    header += (["excess [% of bound]", "tolerance [% of bound]", "margin [% of bound]"]
+               if with_excess else [])
     header += ["active", "shadow price", "shadow price unit"]
-    numeric = {2, 3, 4} | ({5, 6, 8} if with_excess else {6})
+    numeric = {2, 3, 4} | ({5, 6, 7, 9} if with_excess else {6})
     text = ("Peak: the extreme on the replay's dense time grid (for the minimum altitude, "
             "the lowest point), in the limit's unit. Shadow price: the change of the "
             "objective per unit of relaxed limit, from the optimiser's multipliers; zero "
             "when the limit is not active.")
     if with_excess:
         text += (" Excess: how far the replayed peak passes the bound (negative: inside it);"
-                 " the replay passes verification within the tolerance.")
+                 " the replay passes verification within the tolerance. Margin: how far "
+                 "inside the bound the optimiser held the limit.")
     return section("Limits", table(header, rows, numeric=numeric) + "\n" + note(text))
 
 
@@ -201,42 +205,72 @@ def verification_section(summary: dict) -> str:
 
 
 def _condition_rows(block) -> tuple[list[dict], dict]:
-    """The conditions of a target-miss block, and its other scalar entries."""
+    """The conditions of a target-miss block, and its other entries: a list of
+    conditions, or a mapping of them by name (``{"conditions": {"altitude": {...}}}``)."""
     if isinstance(block, list):
         return [c for c in block if isinstance(c, dict)], {}
     if not isinstance(block, dict):
         return [], {}
-    listed = block.get("conditions")
-    if isinstance(listed, list):
-        rest = {k: v for k, v in block.items() if k != "conditions"
-                and not isinstance(v, (dict, list))}
-        return [c for c in listed if isinstance(c, dict)], rest
-    named = [{"name": k, **v} for k, v in block.items() if isinstance(v, dict)]
-    rest = {k: v for k, v in block.items() if not isinstance(v, (dict, list))}
-    return named, rest
+    listed = block.get("conditions", {k: v for k, v in block.items() if isinstance(v, dict)})
+    if isinstance(listed, dict):
+        listed = [{"name": k, **v} for k, v in listed.items() if isinstance(v, dict)]
+    # "passed" repeats the rows' verdicts (and the verification's "target met")
+    rest = {k: v for k, v in block.items() if k not in ("conditions", "passed") and k not in
+            {c.get("name") for c in listed if isinstance(c, dict)}}
+    return [c for c in listed if isinstance(c, dict)], rest
+
+
+def _rest_rows(rest: dict) -> list[tuple[str, str]]:
+    """Key-value rows of the block's other entries; a nested mapping (a circular orbit's
+    target, perigee and apogee altitudes) row by row, a null one left out."""
+    rows = []
+    for key, value in rest.items():
+        if isinstance(value, dict):
+            rows += [(f"{words(key)}: {key_header(k)}", cell(v, 4)) for k, v in value.items()
+                     if not isinstance(v, (dict, list))]
+        elif value is not None and not isinstance(value, list):
+            rows.append((key_header(key), cell(value, 4)))
+    return rows
+
+
+#: columns of the target-miss table: (header, key prefixes), each key ending in its unit
+_MISS_COLUMNS = (("as written", ("written", "target")), ("replayed", ("replayed",)),
+                 ("miss", ("miss",)), ("tolerance", ("tolerance",)))
+
+
+def _miss_cells(condition: dict) -> tuple[str, list[str]]:
+    """(unit, cells) of one target condition: values under ``written_m``, ``miss_deg``..."""
+    unit, cells = "", []
+    for _, prefixes in _MISS_COLUMNS:
+        key = next((k for k in condition for p in prefixes if str(k).startswith(p + "_")),
+                   None)
+        if key is None:
+            cells.append("n/a")
+            continue
+        unit = unit or split_unit(key)[1]
+        cells.append(num(condition[key], 4))
+    return unit, cells
 
 
 def target_miss_table(summary: dict) -> str:
     """The replay's miss from each target condition, beside the verification (only when
-    the summary has a ``target_miss`` block)."""
+    the summary has a ``target_miss`` block with conditions)."""
     conditions, rest = _condition_rows(summary.get("target_miss"))
-    if not conditions and not rest:
-        return ""
-    keys: list[str] = []
+    if not conditions:
+        return ""  # no target, or a summary from before the target was checked
+    rows = []
     for c in conditions:
-        keys += [k for k in c if k not in keys and k != "name"
-                 and not isinstance(c[k], (dict, list))]
-    rows = [[words(c.get("name", ""))] + [cell(c.get(k), 4) for k in keys] for c in conditions]
+        unit, cells = _miss_cells(c)
+        rows.append([words(c.get("name", "")), unit, *cells, yes_no(c.get("passed"))])
     failed = {i for i, c in enumerate(conditions) if c.get("passed") is False}
-    body = "\n<h3>Target miss of the replay</h3>\n"
-    if rows:
-        body += table(["condition"] + [key_header(k) for k in keys], rows,
-                      numeric=set(range(1, len(keys) + 1)), flagged_rows=failed)
-    if rest:
-        body += "\n" + key_values([(key_header(k), cell(v, 4)) for k, v in rest.items()])
+    body = "\n<h3>Target miss of the replay</h3>\n" + table(
+        ["condition", "unit"] + [h for h, _ in _MISS_COLUMNS] + ["within tolerance"], rows,
+        numeric={2, 3, 4, 5}, flagged_rows=failed)
+    if _rest_rows(rest):
+        body += "\n" + key_values(_rest_rows(rest))
     return body + "\n" + note("The burnout state of the independent forward integration "
-                              "against each target condition as written; a row outside its "
-                              "tolerance is highlighted.")
+                              "against each target condition as written (miss = replayed "
+                              "- as written); a row outside its tolerance is highlighted.")
 
 
 def exchange_ratios_section(summary: dict) -> str:
