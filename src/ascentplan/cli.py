@@ -389,55 +389,42 @@ def _cmd_sweep(args) -> int:
     from ascentplan.output.study_report import write_study_outputs
     from ascentplan.study.command import sweep_command
 
-    return sweep_command(args.file, limit=args.limit, values=args.values, vary=args.vary,
-                         dispersion=args.dispersion, samples=args.samples, seed=args.seed,
-                         confidence=args.confidence, workers=args.workers,
-                         scheduler=args.scheduler, out=args.out,
-                         retry_failed=args.retry_failed, progress=not args.quiet,
-                         report=write_study_outputs)
+    given = {k: getattr(args, k) for k in ("limit", "values", "vary", "dispersion", "samples",
+                                            "seed", "confidence", "workers", "scheduler",
+                                            "out", "retry_failed")}
+    return sweep_command(args.file, **given, progress=not args.quiet, report=write_study_outputs)
 
 
 def _add_sweep(subparsers) -> None:
     p = subparsers.add_parser(
-        "sweep", help="trade study: one or two inputs over values, a limit sweep, or a "
-                      "dispersion of vehicle data",
-        description="Solve many variants of a problem on local worker processes, or on a "
-                    "Dask scheduler given by --scheduler. Rows are written to study.csv and "
-                    "study.jsonl as each point finishes; Ctrl-C or SIGTERM stops the workers "
-                    "and keeps every finished row, and running the same command again "
-                    "resumes. Every point's values are checked by the problem loader before "
-                    "any worker starts. At the end the study folder gets performance.png "
-                    "(one input) or performance_map.png (two) and study_report.html. Exit "
-                    "status 0 when every point finished (whatever its status), 1 when any "
-                    "point raised or was lost with its worker, 2 bad input (nothing run), "
-                    "130 stopped by SIGINT, 143 stopped by SIGTERM.")
+        "sweep", help="trade study: inputs over values (a grid of two), or a dispersion",
+        description="Solve variants of a problem on local worker processes or a Dask "
+                    "scheduler. Rows go to study.csv and study.jsonl as points finish; a "
+                    "stop keeps them and the same command resumes. Values are checked by "
+                    "the problem loader before any worker starts. At the end: "
+                    "performance.png (one input), performance_map.png (two) or "
+                    "dispersion.png, and study_report.html. Exit status 0 all finished, 1 a "
+                    "point raised or was lost, 2 bad input, 130 SIGINT, 143 SIGTERM.")
     p.add_argument("file", metavar="FILE", help="YAML problem file")
     what = p.add_mutually_exclusive_group(required=True)
     what.add_argument("--vary", action="append", metavar="KEY=VALUES",
-                      help="an input and its values: a list V1,V2,... or a range "
-                           "START:STOP:COUNT, with units, e.g. "
-                           "target.altitude=200km:800km:7 or "
-                           "'limits.max_dynamic_pressure=20 kPa,30 kPa'; give it twice for "
-                           "a grid of two inputs")
-    what.add_argument("--limit", metavar="NAME",
-                      help="limit to sweep, e.g. max_dynamic_pressure (with --values; "
-                           "short for --vary limits.NAME=V1,V2,...)")
+                      help="an input and its values with units, V1,V2,... or "
+                           "START:STOP:COUNT, e.g. target.altitude=200km:800km:7; twice "
+                           "for a grid")
+    what.add_argument("--limit", metavar="NAME", help="limit to sweep, with --values")
     what.add_argument("--dispersion", nargs="+", metavar="KEY=KIND:SPREAD",
                       help="dispersed inputs, e.g. vehicle.stages[0].thrust_vacuum=normal:0.02 "
                            "(relative sigma or half-width; with --samples)")
-    p.add_argument("--values", nargs="+", metavar="V",
-                   help="bound values with units, e.g. '20 kPa' '25 kPa' '30 kPa'")
+    p.add_argument("--values", nargs="+", metavar="V", help="bound values, e.g. '20 kPa'")
     p.add_argument("--samples", type=int, default=None, help="dispersion samples")
     p.add_argument("--seed", type=int, default=0, help="dispersion random seed (default 0)")
     p.add_argument("--confidence", type=float, default=0.95,
-                   help="fraction of dispersed cases the reserve covers (default 0.95); "
-                        "told with its 90 %% order-statistic confidence interval")
+                   help="fraction of dispersed cases the reserve covers (default 0.95)")
     where = p.add_mutually_exclusive_group()
     where.add_argument("--workers", type=int, default=None,
                        help="local worker processes (default: one per core)")
     where.add_argument("--scheduler", metavar="ADDRESS", default=None,
-                       help="Dask scheduler address, e.g. tcp://10.0.0.5:8786 "
-                            "(needs the 'cluster' extra)")
+                       help="Dask scheduler address, e.g. tcp://10.0.0.5:8786")
     p.add_argument("--out", metavar="DIR", default=None, help="study folder")
     p.add_argument("--retry-failed", action="store_true",
                    help="on resume, solve again the points that raised")

@@ -149,7 +149,9 @@ def summarise_study(rows, *, max_rows: int = 40, units: dict | None = None,
         return "\n".join(head + _curve_table(rows, keys[0], units[keys[0]], objective,
                                               unit, max_rows))
     tail = reserve_lines(reserve) if reserve else []
-    return "\n".join(head + _generic_table(rows, objective, unit, max_rows, units) + tail)
+    nominal = reserve.get("nominal_index") if reserve else None
+    return "\n".join(head + _generic_table(rows, objective, unit, max_rows, units, nominal)
+                     + tail)
 
 
 def curve_slopes(rows, key: str, unit: KeyUnit, objective_unit: str) -> list:
@@ -243,7 +245,7 @@ def _statistics(good: list, keys: list, objective: str, unit: str) -> list:
     return out
 
 
-def _generic_table(rows, objective, unit, max_rows, units: dict) -> list:
+def _generic_table(rows, objective, unit, max_rows, units: dict, nominal=None) -> list:
     keys = list(dict.fromkeys(k for r in rows for k in change_keys_of(r)))
 
     def shown(r, k):
@@ -255,7 +257,11 @@ def _generic_table(rows, objective, unit, max_rows, units: dict) -> list:
     header = ["index", *(f"{k} [{units[k].label}]" if k in units else k for k in keys),
               "status", f"{objective} [{unit}]", "verified", "iterations", "time [s]"]
     out = _elide(_table(header, lines), max_rows + 1, len(lines))
-    good = [r for r in rows if r.get("objective") is not None and r["status"] == "optimal"]
+    if nominal is not None:
+        out.append(f"point {nominal} is the nominal (the problem file's values); the "
+                   f"statistics below are of the dispersed cases")
+    good = [r for r in rows if r.get("objective") is not None and r["status"] == "optimal"
+            and r["index"] != nominal]
     if len(good) < 2:
         return out
     return out + _statistics(good, keys, objective, unit)
@@ -351,7 +357,8 @@ def dispersion_reserve(rows, nominal_index: int, confidence: float = DEFAULT_CON
     Returns
     -------
     dict
-        JSON-safe: ``confidence``, ``interval_confidence``, ``objective_name``,
+        JSON-safe: ``nominal_index``, ``confidence``, ``interval_confidence``,
+        ``objective_name``,
         ``objective_unit``, ``meaning``, ``nominal``, ``cases``,
         ``cases_without_optimum``, ``reserve`` (in the objective's unit), ``lower``,
         ``upper`` (the interval), ``ranks``, ``coverage``, ``covered_value`` (the
@@ -368,7 +375,8 @@ def dispersion_reserve(rows, nominal_index: int, confidence: float = DEFAULT_CON
     cases = [r for i, r in sorted(by_index.items()) if i != nominal_index]
     name = next((r["objective_name"] for r in rows if r.get("objective_name")), "")
     spec = OBJECTIVE_SPECS.get(name)
-    out: dict = {"confidence": confidence, "interval_confidence": interval,
+    out: dict = {"nominal_index": nominal_index, "confidence": confidence,
+                 "interval_confidence": interval,
                  "objective_name": name, "objective_unit": spec.unit if spec else "",
                  "meaning": _reserve_words(name, spec.maximise if spec else True),
                  "nominal": nominal.get("objective"), "cases": len(cases),
