@@ -12,6 +12,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from ascentplan.cautions import CAUTION
+from ascentplan.exchange import exchange_lines, exchange_ratios
 from ascentplan.models.dynamics import altitude_speed_fpa, dynamics_kind
 from ascentplan.problem.limits import LIMITS
 from ascentplan.problem.model import Problem, phase_plan
@@ -154,6 +155,17 @@ class Result:
             })
         return out
 
+    def exchange_ratios(self) -> list[dict]:
+        """d objective / d input for every priced input, largest first (user units).
+
+        Each ``{"input", "label", "value", "unit", "objective_unit", "input_unit"}``:
+        stage masses, thrusts, Isp, nozzle exit areas, the payload where given, the drag
+        scale and each limit bound (its shadow price), from the NLP's parameter
+        multipliers; values None (with a ``reason``) when the solve did not converge.
+        See :mod:`ascentplan.exchange`.
+        """
+        return exchange_ratios(self.problem, self.solution, self.limits())
+
     def stages(self) -> list[dict]:
         phases = phase_plan(self.problem)
         out = []
@@ -209,6 +221,7 @@ class Result:
             "control_smoothing": self.control_smoothing(),
             "burnout": self.burnout(),
             "limits": self.limits(),
+            "exchange_ratios": self.exchange_ratios(),
             "verification": {
                 "passed": bool(v.passed),
                 "burnout_speed_difference_m_s": v.burnout_speed_difference_m_s,
@@ -442,6 +455,7 @@ def format_result(result: Result) -> str:
     lines += verification_lines(s["verification"])
     lines += target_lines(s.get("target_miss"))
     lines += limit_lines(s["limits"])
+    lines += exchange_lines(s.get("exchange_ratios"))
     lines.append("  stages        name            propellant [kg]   dry [kg]   burn [s]")
     for st in s["stages"]:
         lines.append(f"                {st['name']:<16}{st['propellant_mass_kg']:>15.1f}"

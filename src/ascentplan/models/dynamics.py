@@ -220,7 +220,10 @@ def _air_and_engine(kin, throttle, model, prop, mass) -> dict:
     reynolds = None
     if getattr(aero.drag, "needs_reynolds", False):
         reynolds = atm.density * rel_speed * aero.reference_length / atm.viscosity
-    cd = aero.drag.drag_coefficient(mach, reynolds)
+    # two factors on C_D: the problem's (aerodynamics.drag_scale) and the phase's, which the
+    # NLP makes a parameter so that its multiplier prices the drag
+    cd = (aero.drag.drag_coefficient(mach, reynolds) * getattr(aero, "drag_scale", 1.0)
+          * prop.drag_scale)
     drag = q * cd * aero.reference_area
     gross = throttle * prop.thrust_vacuum
     # the back-pressure loss p A_exit acts while the engine fires; the factor
@@ -465,14 +468,16 @@ class FlightModel:
 
 @dataclass(frozen=True)
 class Propulsion:
-    """Engine data of one phase; fields may be CasADi symbols (stage-mass split).
+    """Engine data of one phase; fields may be CasADi symbols (NLP parameters).
 
-    A coast phase has ``thrust_vacuum = 0``.
+    A coast phase has ``thrust_vacuum = 0``. ``drag_scale`` multiplies C_D on top of the
+    aerodynamics' own factor (the NLP passes its drag-scale parameter here).
     """
 
     thrust_vacuum: Any
     exhaust_speed: Any
     exit_area: Any = 0.0
+    drag_scale: Any = 1.0
 
 
 def flight_model(problem) -> FlightModel:

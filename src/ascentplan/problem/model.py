@@ -241,11 +241,12 @@ class Planet:
 
 @dataclass(frozen=True)
 class Aerodynamics:
-    """Drag of the whole stack: D = 1/2 rho C_D A_ref |v_rel|^2."""
+    """Drag of the whole stack: D = 1/2 rho s C_D A_ref |v_rel|^2, s = ``drag_scale``."""
 
     reference_area: float  # [m^2]
     drag: Any  # a drag model from ascentplan.aero.DRAG_MODELS
     reference_length: float | None = None  # [m], for Reynolds number
+    drag_scale: float = 1.0  # [-], a factor on the model's C_D (drag trades)
 
 
 @dataclass(frozen=True)

@@ -279,9 +279,12 @@ def _read_aerodynamics(r: _Reader, data: dict, atmosphere_name: str | None):
         r.error("aerodynamics.reference_length",
                 f"missing; the {drag_name} drag model needs a length for the Reynolds "
                 f"number (e.g. '1.2 m')")
-    if area is None or drag is None:
+    # a factor on every C_D of the model: what a trade of the drag estimate varies
+    drag_scale = r.quantity(section, "drag_scale", "aerodynamics", "", default=1.0, gt=0.0)
+    if area is None or drag is None or drag_scale is None:
         return None
-    return Aerodynamics(reference_area=area, drag=drag, reference_length=length)
+    return Aerodynamics(reference_area=area, drag=drag, reference_length=length,
+                        drag_scale=drag_scale)
 
 
 def _read_drag(r: _Reader, raw: Any, in_vacuum: bool):

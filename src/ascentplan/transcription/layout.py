@@ -155,6 +155,17 @@ class ParameterLayout:
         return out
 
 
+    def split(self, vector) -> dict:
+        """Each parameter's entries of a parameter-sized ``vector`` (values or multipliers),
+        as arrays by name."""
+        vector = np.asarray(vector, dtype=float).ravel()
+        if vector.size != self.size:
+            raise ValueError(f"parameter vector: expected {self.size} entries, "
+                             f"got {vector.size}")
+        return {name: vector[start:start + size].copy()
+                for name, (start, size) in self._blocks.items()}
+
+
 class ConstraintRows:
     """Constraint rows by name, with their intervals; a name may own several groups."""
 

@@ -1,15 +1,18 @@
 """The stack masses and thrusts of the NLP: parameters, or decision variables when free.
 
-Masses and thrusts are NLP parameters, so that a re-solve with other values reuses the
-built solver; the payload (when the objective maximises it) and, in a stage-mass split,
-the propellant masses are decision variables instead. Dry masses, masses above each stage
-and thrusts then follow by the rules of :mod:`ascentplan.problem.model`, written once for
-numbers and symbols.
+Masses, thrusts, exhaust speeds, nozzle exit areas and the drag scale are NLP parameters,
+so that a re-solve with other values reuses the built solver and the multiplier of each
+prices it (the exchange ratios, :mod:`ascentplan.exchange`); the payload (when the
+objective maximises it) and, in a stage-mass split, the propellant masses are decision
+variables instead. Dry masses, masses above each stage and thrusts then follow by the
+rules of :mod:`ascentplan.problem.model`, written once for numbers and symbols.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
+
+import casadi as ca
 
 from ascentplan.problem.model import Problem, dry_mass_from_ratio, stack_masses, thrust_from_ratio
 
@@ -49,21 +52,25 @@ def payload_is_free(problem: Problem) -> bool:
     return problem.objective == "max_payload"
 
 
-def mass_parameter_sizes(problem: Problem) -> list[tuple[str, int]]:
-    """Names and lengths of the mass and thrust parameters of the NLP.
+def vehicle_parameter_sizes(problem: Problem) -> list[tuple[str, int]]:
+    """Names and lengths of the vehicle parameters of the NLP.
 
     ``structure`` is per stage the dry mass, or in a stage-mass split the structural ratio
     (the dry mass then follows the propellant); ``liftoff_mass`` is the one a split holds;
     ``reserve`` and ``reserve_fraction`` are each stage's propellant reserve [kg] and
-    the part of it that is a fraction of the propellant [-].
+    the part of it that is a fraction of the propellant [-]; ``thrust_to_weight`` is the
+    ratio a split keeps (0 where the thrust is given); ``exhaust_speed`` [m/s] and
+    ``exit_area`` [m^2] are per stage, ``drag_scale`` [-] is the factor on C_D.
     """
     n = len(problem.vehicle.stages)
     return [("payload", 1), ("propellant", n), ("structure", n), ("thrust", n),
-            ("liftoff_mass", 1), ("reserve", n), ("reserve_fraction", n)]
+            ("liftoff_mass", 1), ("reserve", n), ("reserve_fraction", n),
+            ("thrust_to_weight", n), ("exhaust_speed", n), ("exit_area", n),
+            ("drag_scale", 1)]
 
 
-def mass_parameter_values(problem: Problem, split: bool) -> dict:
-    """Values of the parameters of :func:`mass_parameter_sizes` [kg, N, -]."""
+def vehicle_parameter_values(problem: Problem, split: bool) -> dict:
+    """Values of the parameters of :func:`vehicle_parameter_sizes` [kg, N, m/s, m^2, -]."""
     veh = problem.vehicle
     if split:
         structure = [s.ratio_of_structure for s in veh.stages]
@@ -78,7 +85,35 @@ def mass_parameter_values(problem: Problem, split: bool) -> dict:
             "thrust": [s.thrust_vacuum for s in veh.stages],
             "liftoff_mass": held,
             "reserve": [s.propellant_reserve for s in veh.stages],
-            "reserve_fraction": [s.propellant_reserve_fraction for s in veh.stages]}
+            "reserve_fraction": [s.propellant_reserve_fraction for s in veh.stages],
+            "thrust_to_weight": [s.thrust_to_weight or 0.0 for s in veh.stages],
+            "exhaust_speed": [s.exhaust_speed for s in veh.stages],
+            "exit_area": [s.nozzle_exit_area for s in veh.stages],
+            "drag_scale": problem.aerodynamics.drag_scale}
+
+
+def unscaled_drag(problem: Problem) -> Problem:
+    """The problem with drag scale 1: the NLP carries the scale as a parameter, so its
+    flight model must not hold it too."""
+    return replace(problem, aerodynamics=replace(problem.aerodynamics, drag_scale=1.0))
+
+
+def engine_inputs(params, masses: StackMasses, phase):
+    """The node function's engine vector on ``phase``: [vacuum thrust [N], exhaust speed
+    [m/s], nozzle exit area [m^2], drag scale [-]] (no thrust and no exit area in a coast).
+    """
+    i = phase.stage
+    return ca.vertcat(masses.thrust[i] if phase.powered else 0.0,
+                      params.entries("exhaust_speed")[i],
+                      params.entries("exit_area")[i] if phase.powered else 0.0,
+                      params.scalar("drag_scale"))
+
+
+def thrust_follows_weight(problem: Problem, index: int) -> bool:
+    """Whether stage ``index``'s thrust follows its thrust-to-weight ratio in the NLP (a
+    stage-mass split keeps the ratio as the stack mass changes)."""
+    return (problem.mass_split is not None
+            and problem.vehicle.stages[index].thrust_to_weight is not None)
 
 
 def _propellant(problem: Problem, variables, params, mass_scale: float) -> list:
@@ -111,11 +146,10 @@ def add_stack_masses(problem: Problem, variables, params, mass_scale: float) -> 
     variables : VariableLayout
         Receives ``payload``, ``split_scale`` or ``propellant`` when they are free.
     params : ParameterLayout
-        Holds the parameters of :func:`mass_parameter_sizes`.
+        Holds the parameters of :func:`vehicle_parameter_sizes`.
     mass_scale : float
         Scale of the mass variables [kg].
     """
-    stages = problem.vehicle.stages
     split = problem.mass_split is not None
     if payload_is_free(problem):
         payload = variables.add("payload", (1, 1), 0.0, 1.0) * mass_scale
@@ -129,9 +163,10 @@ def add_stack_masses(problem: Problem, variables, params, mass_scale: float) -> 
         dry = structure
     above, ignition, burnout = stack_masses(payload, propellant, dry)
     thrust = []
-    for i, (stage, written) in enumerate(zip(stages, params.entries("thrust"))):
-        if split and stage.thrust_to_weight is not None:
-            thrust.append(thrust_from_ratio(stage.thrust_to_weight, ignition[i]))
+    for i, (written, ratio) in enumerate(zip(params.entries("thrust"),
+                                             params.entries("thrust_to_weight"))):
+        if thrust_follows_weight(problem, i):
+            thrust.append(thrust_from_ratio(ratio, ignition[i]))
         else:
             thrust.append(written)
     # the reserve stays on board: a planned burnout leaves it with the stage's dry mass

@@ -34,8 +34,10 @@ from ascentplan.transcription.layout import ConstraintRows, ParameterLayout, Var
 from ascentplan.transcription.masses import (
     StackMasses,
     add_stack_masses,
-    mass_parameter_sizes,
-    mass_parameter_values,
+    engine_inputs,
+    unscaled_drag,
+    vehicle_parameter_sizes,
+    vehicle_parameter_values,
 )
 from ascentplan.transcription.phases import (
     carrier_state,
@@ -92,14 +94,15 @@ ACCELERATE_MAX_VARIABLES = 6000
 
 
 def structure_key(problem: Problem) -> tuple:
-    """What fixes the NLP's structure: everything except limit values and masses."""
+    """What fixes the NLP's structure: everything that is not an NLP parameter."""
     stages = tuple(
-        (s.exhaust_speed, s.nozzle_exit_area, s.throttle_min, s.throttle_max,
-         s.max_throttle_rate, s.coast_after, s.structural_ratio, s.thrust_to_weight,
-         s.propellant_min, s.propellant_max, s.may_shut_down_early)
+        (s.throttle_min, s.throttle_max, s.max_throttle_rate, s.coast_after,
+         s.structural_ratio, s.thrust_to_weight is not None, s.propellant_min,
+         s.propellant_max, s.may_shut_down_early)
         for s in problem.vehicle.stages)
     return (problem.dynamics, problem.planet, problem.atmosphere, problem.gravity,
-            problem.aerodynamics, problem.launch, stages, tuple(problem.limits.active_names()),
+            unscaled_drag(problem).aerodynamics, problem.launch, stages,
+            tuple(problem.limits.active_names()),
             problem.target, problem.objective, problem.mesh.scheme, problem.mesh.nodes_per_phase,
             problem.mesh.control_smoothing,
             problem.mesh.limit_margin,
@@ -180,7 +183,7 @@ class AscentNLP:
         if symbolic not in ("MX", "SX"):
             raise ValueError(f"symbolic: must be 'MX' or 'SX', got {symbolic!r}")
         self.problem = problem
-        self.model = dynamics.flight_model(problem)
+        self.model = dynamics.flight_model(unscaled_drag(problem))
         self.kind = self.model.kind
         self.scheme = COLLOCATION_SCHEMES[problem.mesh.scheme]()
         self.phases = phase_plan(problem)
@@ -202,7 +205,7 @@ class AscentNLP:
 
     # ------------------------------------------------------------------ building
     def _build(self):
-        sizes = [(name, 1) for name in self.limit_names] + mass_parameter_sizes(self.problem)
+        sizes = [(name, 1) for name in self.limit_names] + vehicle_parameter_sizes(self.problem)
         self.parameters = ParameterLayout(self._sym, sizes)
         self.variables = VariableLayout(self._sym)
         self.rows = ConstraintRows()
@@ -272,9 +275,8 @@ class AscentNLP:
         sym = self.phase_vars[j]
         X, U = sym.states, sym.controls
         off, sc = self.x_offset[:, None], self.x_scale[:, None]
-        engine = ca.vertcat(masses.thrust[ph.stage] if ph.powered else 0.0,
-                            stage.exhaust_speed)
-        point = node_function(self.model, ph, stage, quantities)
+        engine = engine_inputs(self.parameters, masses, ph)
+        point = node_function(self.model, quantities)
         F_nodes, Q_nodes = point.map(N)(sym.physical, U, engine)
         Fs = F_nodes / sc  # scaled state derivative per physical second
         Xk, Xk1 = X[:, :-1], X[:, 1:]
@@ -505,9 +507,9 @@ class AscentNLP:
 
     # --------------------------------------------------------------- numerics
     def parameter_vector(self, problem: Problem) -> np.ndarray:
-        """NLP parameters (limit bounds, masses, thrusts) for a problem of this structure."""
+        """NLP parameters (limit bounds, vehicle data) for a problem of this structure."""
         values = {name: float(getattr(problem.limits, name)) for name in self.limit_names}
-        values.update(mass_parameter_values(problem, self.split))
+        values.update(vehicle_parameter_values(problem, self.split))
         return self.parameters.vector(values)
 
     def pack_guess(self, guess: Guess) -> np.ndarray:
@@ -591,6 +593,7 @@ class AscentNLP:
             durations=durations, times=times, states=states, controls=controls,
             payload_mass=float(payload[0]), propellant=list(prop), dry=list(dry),
             shadow_prices=shadow, constraint_violation=viol,
+            sensitivities={k: to_objective * v for k, v in self.parameters.split(lam_p).items()},
             multipliers={"lam_x": lam_x, "lam_g": lam_g, "lam_p": lam_p},
             binding=NLPSolution.binding_of(self._limit_rows, gval, self.lbg, self.ubg, lam_g,
                                            success),

@@ -95,23 +95,23 @@ def last_of_stage(phases: list[Phase], j: int) -> bool:
                            or phases[j + 1].stage != ph.stage)
 
 
-def node_function(model, phase: Phase, stage, quantities) -> ca.Function:
-    """SX Function (x_phys, u, [thrust, c]) -> (xdot, [the flight quantities named]).
+def node_function(model, quantities) -> ca.Function:
+    """SX Function (x_phys, u, engine) -> (xdot, [the flight quantities named]).
+
+    ``engine`` is [vacuum thrust [N], exhaust speed [m/s], nozzle exit area [m^2], drag
+    scale [-]]: NLP parameters (or expressions of them), so that their multipliers price
+    them and a change of their values reuses the built NLP.
 
     Parameters
     ----------
     model : FlightModel
-    phase : Phase
-    stage : Stage
-        The stage flown (its nozzle exit area, when powered).
     quantities : sequence of str
         Keys of :func:`ascentplan.models.dynamics.flight_quantities`, one row each.
     """
     x = ca.SX.sym("x", model.n_states)
     u = ca.SX.sym("u", model.n_controls)
-    engine = ca.SX.sym("prop", 2)
-    exit_area = stage.nozzle_exit_area if phase.powered else 0.0
-    prop = dynamics.Propulsion(engine[0], engine[1], exit_area)
+    engine = ca.SX.sym("prop", 4)
+    prop = dynamics.Propulsion(engine[0], engine[1], engine[2], engine[3])
     xdot = dynamics.rhs(0.0, x, u, (model, prop))
     fq = dynamics.flight_quantities(x, u, model, prop)
     Q = ca.vertcat(*[fq[name] for name in quantities])

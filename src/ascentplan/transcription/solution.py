@@ -71,6 +71,9 @@ class NLPSolution:
     dry: list
     shadow_prices: dict  # limit name -> d objective / d bound (SI objective per SI bound)
     constraint_violation: float
+    #: NLP parameter name -> d objective / d parameter per entry (SI), from the parameter
+    #: multipliers (envelope theorem); meaningful at a converged optimum only
+    sensitivities: dict = field(default_factory=dict)
     multipliers: dict = field(default_factory=dict)
     binding: list = field(default_factory=list)
     #: the elastic form only: per condition its ``slack`` and the ``phases`` that need it
