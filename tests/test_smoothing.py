@@ -23,7 +23,7 @@ from ascentplan.problem.loader import (
     read_problem_file,
 )
 from ascentplan.problem.objectives import OBJECTIVE_SPECS
-from ascentplan.transcription.nlp import control_smoothness
+from ascentplan.transcription.smoothing import control_smoothness
 
 PROBLEMS = Path(__file__).resolve().parent.parent / "problems"
 WEIGHT = 1e-4

@@ -48,6 +48,7 @@ from ascentplan.transcription.phases import (
     node_function,
     nodes_for_phase,
 )
+from ascentplan.transcription.smoothing import control_smoothness
 from ascentplan.transcription.solution import Guess, NLPSolution
 
 __all__ = ["ACCELERATE_MAX_VARIABLES", "ELASTIC_OPTIONS", "IPOPT_OPTIONS", "WARM_START_OPTIONS",
@@ -108,41 +109,6 @@ def structure_key(problem: Problem) -> tuple:
             problem.mesh.limit_margin,
             None if problem.mass_split is None else (problem.mass_split.hold,
                                                      problem.mass_split.proportional))
-
-
-def control_smoothness(problem: Problem, controls) -> object:
-    """The sum of squared differences of neighbouring node controls, each control divided
-    by its range on its phase [-].
-
-    S = sum over phases, controls c with a range r_c > 0 (the throttle range of a
-    powered phase's stage, pi for the pitch of a burn) and intervals k of
-    ((u_c,k+1 - u_c,k) / r_c)^2. A control that jumps across its whole range once adds
-    1; a schedule that follows a smooth function adds O(1/N) on N nodes, so the term
-    vanishes as the mesh is refined while node-to-node chatter keeps its cost.
-
-    Parameters
-    ----------
-    problem : Problem
-    controls : list of array (n_u, N) per phase
-        Node controls of each phase of :func:`~ascentplan.problem.phase_plan`, numpy
-        arrays or CasADi symbols.
-
-    Returns
-    -------
-    float or CasADi expression
-    """
-    total = 0.0
-    kind = dynamics.dynamics_kind(problem.dynamics)
-    for phase, U in zip(phase_plan(problem), controls):
-        stage = problem.vehicle.stages[phase.stage]
-        lower, upper = control_bounds(kind, phase, stage)
-        for c, (low, high) in enumerate(zip(lower, upper)):
-            if not high - low > 0.0 or U.shape[1] < 2:
-                continue
-            step = (U[c, 1:] - U[c, :-1]) / (high - low)
-            total = total + (ca.sumsqr(step) if isinstance(step, (ca.MX, ca.SX))
-                             else float(np.sum(np.square(step))))
-    return total
 
 
 @dataclass(frozen=True)
