@@ -37,7 +37,7 @@ from ascentplan.problem.limits import LIMITS
 from ascentplan.problem.loader import read_problem_file
 from ascentplan.problem.model import Problem
 from ascentplan.problem.objectives import OBJECTIVE_SPECS
-from ascentplan.problem.units import ureg
+from ascentplan.problem.units import to_si, ureg
 from ascentplan.study.document import parse_key, pint_unit, plain_unit, unit_of_text
 from ascentplan.study.errors import StudyError
 
@@ -111,8 +111,6 @@ class KeyUnit:
         ``shown``; None when it cannot be converted."""
         try:
             if isinstance(value, str):
-                from ascentplan.problem.units import to_si
-
                 return float(to_si(value, pint_unit(self.shown), "value"))
             if value is None or self.plain is None:
                 return None
