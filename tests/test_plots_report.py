@@ -20,11 +20,18 @@ from ascentplan.constants import G0, PLANETS
 from ascentplan.models.aero import ConstantDrag
 from ascentplan.models.atmosphere import ExponentialAtmosphere
 from ascentplan.models.gravity import InverseSquareGravity
+from ascentplan.output import figure_marks, split_map_plot
 from ascentplan.output import files as outputs
+from ascentplan.output import plots as plots_module
+from ascentplan.output.figure_marks import EVENT_KINDS, caution_line
 from ascentplan.output.plots import (
     DPI,
+    FIGURES,
+    _node_quantities,
     _overview_figure,
     _panel_figure,
+    order_figures,
+    plot_split_map,
     plot_trajectory,
     result_nodes,
 )
@@ -138,19 +145,20 @@ def _lines_by_gid(ax, gid):
 
 def test_vertical_plot_files(vertical_plots):
     _folder, paths = vertical_plots
-    _check_pngs(paths, ["altitude", "speed", "dynamic_pressure", "axial_acceleration",
-                        "throttle", "mass", "overview"])
-    # six panels: a 2x3 grid of 5 x 3.4 inch cells plus room for the legend
-    assert _png_size(paths[-1]) == (15 * DPI, round((2 * 3.4 + 0.6) * DPI))
+    _check_pngs(paths, ["overview", "altitude", "speed", "dynamic_pressure",
+                        "axial_acceleration", "throttle", "mass"])
+    # six panels: a 2x3 grid of 5 x 3.4 inch cells plus bands for the title and status
+    # above, the legend and caution below
+    assert _png_size(paths[0]) == (15 * DPI, round((2 * 3.4 + 1.1) * DPI))
 
 
 def test_planar_plot_files_with_prefix(planar_flight, tmp_path):
     problem, traj = planar_flight
     paths = plot_trajectory(problem, traj, tmp_path, prefix="case1_")
     assert all(p.name.startswith("case1_") for p in paths)
-    _check_pngs(paths, [f"case1_{s}" for s in ("altitude", "speed", "dynamic_pressure",
-                                        "axial_acceleration", "q_alpha", "throttle",
-                              "pitch", "mass", "overview")])
+    _check_pngs(paths, [f"case1_{s}" for s in ("overview", "altitude", "speed",
+                                               "dynamic_pressure", "axial_acceleration",
+                                               "q_alpha", "throttle", "pitch", "mass")])
     # eight panels need a 3x3 grid; the empty cell is removed
     fig = _overview_figure(problem, traj)
     assert len(fig.axes) == 8
@@ -190,11 +198,16 @@ def test_events_marked_and_labelled(planar_flight):
     burnouts = [e["time"] for e in traj.events if e["kind"] == "burnout"]
     assert len(staging) == 1 and len(burnouts) == 2
     xs = sorted(line.get_xdata()[0] for line in _lines_by_gid(ax, "event"))
-    # first-stage burnout and staging coincide: one line for both, one for final burnout
-    np.testing.assert_allclose(xs, [staging[0], burnouts[1]])
+    # first-stage burnout and staging coincide: one line of each kind there, one label
+    np.testing.assert_allclose(xs, [staging[0], staging[0], burnouts[1]])
     labels = [t.get_text() for t in ax.texts]
     assert "burnout + staging (first)" in labels
     assert "burnout (second)" in labels
+    # each kind has its own style and is named once in the legend
+    legend = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert legend.count(EVENT_KINDS["burnout"].legend) == 1
+    assert legend.count(EVENT_KINDS["staging"].legend) == 1
+    assert EVENT_KINDS["flameout"].legend not in legend
 
 
 def test_replay_passes_through_optimiser_nodes(planar_result):
@@ -217,6 +230,153 @@ def test_replay_passes_through_optimiser_nodes(planar_result):
             # the same quantity in the same plot units: the replay meets every node
             np.testing.assert_allclose(line.get_ydata(), on_replay, atol=tol,
                                        err_msg=f"{key}, phase {k}")
+
+
+def _saved_figures(monkeypatch, module=plots_module) -> list:
+    """Record, for every PNG saved through ``module``, its file stem and its texts then."""
+    saved = []
+    original = figure_marks.save_png
+
+    def record(fig, path):
+        texts = {t.get_gid(): t.get_text() for t in fig.texts if t.get_gid()}
+        saved.append((Path(path).stem, texts))
+        original(fig, path)
+
+    monkeypatch.setattr(module, "save_png", record)
+    return saved
+
+
+def test_every_png_is_stamped_with_the_status_and_the_caution(planar_result, planar_flight,
+                                                              tmp_path, monkeypatch):
+    saved = _saved_figures(monkeypatch)
+    plots_module.plot_result(planar_result, tmp_path / "solved")
+    assert [stem for stem, _ in saved] == [s for s in FIGURES if s not in ("q_alpha",
+                                                                           "split_map")]
+    for stem, texts in saved:
+        assert texts["status"] == "optimal and verified by replay", stem
+        assert texts["caution"] == caution_line(), stem
+    # the caution line is the caution's own first sentence
+    assert CAUTION.startswith(caution_line()[:-1])
+    problem, traj = planar_flight
+    for status, start in (("infeasible", "INFEASIBLE - not a solution"),
+                          ("failed", "SOLVER FAILED - not a solution"),
+                          ("not_verified", "NOT VERIFIED"),
+                          (None, "forward simulation of a given schedule")):
+        saved.clear()
+        plot_trajectory(problem, traj, tmp_path / str(status), status=status)
+        assert len(saved) == 9
+        assert all(texts["status"].startswith(start) for _, texts in saved), status
+
+
+def _with_coast(problem: Problem, seconds: float) -> Problem:
+    first = replace(problem.vehicle.stages[0], coast_after=seconds)
+    return replace(problem, vehicle=replace(problem.vehicle,
+                                            stages=(first, *problem.vehicle.stages[1:])))
+
+
+def test_no_optimiser_controls_drawn_on_a_coast():
+    # nodes taken from a replay with a coast between the stages; on the coast the
+    # optimiser leaves its controls free (here a throttle of 0.3 and a pitch of 30 deg,
+    # which would give a q alpha the flight never has)
+    problem = _with_coast(_planar_problem(PLANAR_LIMITS), 15.0)
+    traj = simulate(problem, coast_to_apogee=False)
+    phases = phase_plan(problem)
+    assert [ph.powered for ph in phases].count(False) == 1
+    nodes = []
+    for k, ph in enumerate(phases):
+        mask = traj.phase == k
+        times = np.linspace(traj.time[mask][0], traj.time[mask][-1], 6)
+        states = np.array([np.interp(times, traj.time[mask], row)
+                           for row in np.asarray(traj.state)[:, mask]])
+        controls = np.array([np.interp(times, traj.time[mask], row)
+                             for row in np.asarray(traj.controls)[:, mask]])
+        if not ph.powered:
+            controls = np.vstack([np.full(6, 0.3), np.full(6, np.radians(30.0))])
+        nodes.append((times, controls, states))
+    values = _node_quantities(problem, nodes)
+    for ph, v in zip(phases, values):
+        shown = {"throttle", "pitch", "q_alpha"} & set(v)
+        assert shown == (set() if not ph.powered else {"throttle", "pitch", "q_alpha"})
+        # the state is no control: it is drawn on every phase
+        assert {"altitude", "speed", "dynamic_pressure", "mass"} <= set(v)
+    for key in ("throttle", "pitch", "q_alpha"):
+        ax = _panel_figure(problem, traj, key, nodes).axes[0]
+        markers = [line for line in ax.get_lines() if line.get_marker() == "o"]
+        assert len(markers) == len(phases) - 1, key
+        coast = phases.index(next(ph for ph in phases if not ph.powered))
+        # (its end nodes are shared with the burns on either side)
+        coast_times = set(np.round(nodes[coast][0][1:-1], 9))
+        for line in markers:
+            assert not coast_times & set(np.round(line.get_xdata(), 9)), key
+
+
+def test_flameout_burnout_and_staging_have_their_own_lines_and_legend(planar_flight):
+    problem, traj = planar_flight
+    events = [dict(e) for e in traj.events]
+    last = max((e for e in events if e["kind"] == "burnout"), key=lambda e: e["time"])
+    # the upper stage runs dry 20 s before its scheduled end
+    events.append({**last, "kind": "flameout", "time": last["time"] - 20.0})
+    flown = replace(traj, events=events)
+    for fig in (_panel_figure(problem, flown, "speed"), _overview_figure(problem, flown)):
+        names = [t.get_text() for t in (fig.legends[0] if fig.legends
+                                        else fig.axes[0].get_legend()).get_texts()]
+        for kind in ("burnout", "flameout", "staging"):
+            assert names.count(EVENT_KINDS[kind].legend) == 1, (kind, names)
+    ax = _panel_figure(problem, flown, "speed").axes[0]
+    styles = {}
+    for line in _lines_by_gid(ax, "event"):
+        styles.setdefault(line.get_label(), set()).add((line.get_color(), line.get_linestyle()))
+    drawn = {label: style for label, style in styles.items() if label != "_nolegend_"}
+    assert len({next(iter(s)) for s in drawn.values()}) == 3  # three kinds, three looks
+
+
+def test_one_order_of_figures_for_the_solve_and_the_report(planar_result, result_folder,
+                                                           tmp_path):
+    assert FIGURES[0] == "overview" and FIGURES[-1] == "split_map"
+    names = [tmp_path / f"case_{s}.png" for s in reversed(FIGURES)]
+    assert [p.stem for p in order_figures(names)] == [f"case_{s}" for s in FIGURES]
+    # "q_alpha" is not read as another figure's name
+    assert order_figures([tmp_path / "q_alpha.png", tmp_path / "altitude.png"])[0].stem == \
+        "altitude"
+    folder, path = result_folder
+    solved = [img["alt"] for img in _parse(path.read_text(encoding="utf-8")).images]
+    for png in folder.glob("*.png"):
+        shutil.copy(png, tmp_path)
+    outputs.write_json(planar_result.summary(), tmp_path / "summary.json")
+    again = render_report_from_folder(tmp_path).read_text(encoding="utf-8")
+    assert [img["alt"] for img in _parse(again).images] == solved
+    stems = [p.stem for p in plots_module.plot_result(planar_result, tmp_path / "p")]
+    assert stems == [s for s in FIGURES if s in stems]
+
+
+def test_split_map_draws_cells_not_contour_islands(tmp_path, monkeypatch):
+    from matplotlib.collections import QuadMesh
+    from matplotlib.contour import ContourSet
+
+    captured = []
+    monkeypatch.setattr(split_map_plot, "save_png", lambda fig, path: captured.append(fig))
+    center = [0.25, 0.33, 0.42]
+    offsets = np.linspace(-0.05, 0.05, 5)
+    fractions = [[center[0] + a, center[1] + b, center[2] - a - b]
+                 for a in offsets for b in offsets]
+    values = [8951.79 - 3e4 * (a * a + b * b) for a in offsets for b in offsets]
+    values[12] = 8951.10  # the centre, a re-solve within solver tolerance of its neighbour
+    values[13] = 8951.79
+    plot_split_map({"stage_names": ["one", "two", "three"], "center_fractions": center,
+                    "fractions": fractions, "objective": values}, tmp_path,
+                   unit="kg", objective="max_payload")
+    [fig] = captured
+    ax = fig.axes[0]
+    assert not [c for c in ax.collections if isinstance(c, ContourSet)]
+    [mesh] = [c for c in ax.collections if isinstance(c, QuadMesh)]
+    assert mesh.get_array().size == 25
+    # the two neighbours differ by under 1 % of the colour range: no rival optimum drawn
+    low, high = mesh.norm.vmin, mesh.norm.vmax
+    assert abs(8951.79 - 8951.10) / (high - low) < 0.01
+    texts = [t.get_text() for t in ax.texts if t.get_gid() == "split-value"]
+    assert len(texts) == 25 and "8,951.1" in texts and "8,951.8" in texts
+    assert [line for line in ax.get_lines() if line.get_gid() == "optimum"]
+    assert {t.get_gid() for t in fig.texts} >= {"status", "caution"}
 
 
 class _StrictParser(HTMLParser):

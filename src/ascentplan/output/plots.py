@@ -1,4 +1,11 @@
-"""Time-history plots of an ascent (altitude, speed, loads, controls, mass) written as PNG files."""
+"""Time-history plots of an ascent (altitude, speed, loads, controls, mass) written as PNG files.
+
+Every figure is stamped with the run's status and the caution
+(:mod:`ascentplan.output.figure_marks`), drawn on a fixed layout (a constrained layout
+solves for the margins at every draw, which cost most of the plotting time) and saved
+with light PNG compression; :data:`FIGURES` is the one order of the figures, used by the
+results folder and the report alike.
+"""
 
 from __future__ import annotations
 
@@ -15,23 +22,25 @@ from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 
 from ascentplan.models.dynamics import dynamics_kind, flight_model, flight_quantities, propulsion
-from ascentplan.output.atomic import atomic_open
+from ascentplan.output.figure_marks import DPI, event_kind, save_png, stamp_figure, status_stamp
+from ascentplan.output.ground_track import has_ground_track, plot_ground_track
+from ascentplan.output.split_map_plot import plot_split_map
 from ascentplan.output.text import printable
 from ascentplan.problem.limits import LIMITS
 from ascentplan.problem.model import Problem, phase_plan
 
-__all__ = ["DPI", "PANELS", "plot_result", "plot_trajectory", "result_nodes"]
+__all__ = ["DPI", "FIGURES", "PANELS", "order_figures", "plot_result", "plot_split_map",
+           "plot_trajectory", "result_nodes"]
 
-#: resolution of every PNG [dots per inch]
-DPI = 150
 
 _PANEL_SIZE = (7.0, 4.2)  # single-quantity figure [in]
 _CELL_SIZE = (5.0, 3.4)  # one cell of the overview grid [in]
+#: height of the overview's bands [in]: title and status above, legend and caution below
+_OVERVIEW_BANDS = 1.1
 _REPLAY_STYLE = dict(color="C0", linewidth=1.6)
 _AIR_RELATIVE_STYLE = dict(color="C2", linewidth=1.4, linestyle="--")
 _NODE_STYLE = dict(color="C1", marker="o", markersize=3.2, linestyle="none")
 _BOUND_STYLE = dict(color="C3", linewidth=1.2, linestyle="--")
-_EVENT_STYLE = dict(color="0.35", linewidth=1.0, linestyle=":")
 #: events closer than this fraction of the flight time share one marker and label
 _EVENT_MERGE_FRACTION = 0.004
 #: fraction of an axes' height kept free above the data for event names
@@ -130,11 +139,44 @@ def _bound(problem: Problem, key: str) -> tuple[float, str] | None:
     return None
 
 
+#: every figure a results folder holds, by file stem, in the one order in which the
+#: results folder lists them and the report shows them: the overview, the time histories
+#: in :data:`PANELS` order, then the split map (drawn by a stage-mass split with its map)
+FIGURES = ("overview", *(p.key for p in PANELS), "ground_track", "split_map")
+
+
+def order_figures(paths) -> list[Path]:
+    """PNG paths in :data:`FIGURES` order (a file-name prefix is allowed); others last."""
+    def key(path: Path) -> tuple:
+        stem = path.stem
+        # the longest name ending the stem, so that "q_alpha" is not taken for another
+        found = [(len(name), i) for i, name in enumerate(FIGURES) if stem.endswith(name)]
+        return (max(found)[1], stem) if found else (len(FIGURES), stem)
+
+    return sorted((Path(p) for p in paths), key=key)
+
+
+def _attitude_quantities(states, controls, model, prop) -> set:
+    """Flight quantities that follow the commanded attitude: those that change when every
+    control but the throttle is moved. On a coast the attitude is not flown (the replay
+    holds no pitch command), so the optimiser's values of these are no result."""
+    if controls.shape[0] < 2:
+        return set()
+    moved = controls.copy()
+    moved[1:] += 0.1
+    base = flight_quantities(states, controls, model, prop)
+    other = flight_quantities(states, moved, model, prop)
+    return {key for key in base if not np.allclose(np.asarray(base[key], dtype=float),
+                                                   np.asarray(other[key], dtype=float))}
+
+
 def _node_quantities(problem: Problem, nodes) -> list[dict]:
     """Per phase, the panel values at the optimiser's nodes (plot units), keyed by panel.
 
-    Controls are always shown; quantities that need the state only when the node states
-    are given (a third element of each entry).
+    Controls are shown on powered phases only: on a coast no control is flown, so
+    the optimiser's throttle and pitch there (and what follows from the pitch, such as
+    q alpha) are free values with no meaning. Quantities that need the state only when
+    the node states are given (a third element of each entry).
     """
     phases = phase_plan(problem)
     model = flight_model(problem)
@@ -142,30 +184,35 @@ def _node_quantities(problem: Problem, nodes) -> list[dict]:
     for j, entry in enumerate(nodes):
         times = np.asarray(entry[0], dtype=float).ravel()
         controls = np.atleast_2d(np.asarray(entry[1], dtype=float))
-        values = {"time": times, "throttle": controls[model.kind.control_index("throttle")]}
-        if model.kind.steered and controls.shape[0] > 1:
-            values["pitch"] = np.degrees(controls[model.kind.control_index("pitch")])
+        powered = j >= len(phases) or phases[j].powered
+        values = {"time": times}
+        if powered:
+            values["throttle"] = controls[model.kind.control_index("throttle")]
+            if model.kind.steered and controls.shape[0] > 1:
+                values["pitch"] = np.degrees(controls[model.kind.control_index("pitch")])
         if len(entry) > 2 and entry[2] is not None and j < len(phases):
             states = np.atleast_2d(np.asarray(entry[2], dtype=float))
-            ph = phases[j]
-            prop = propulsion(problem.vehicle.stages[ph.stage], ph.powered)
+            prop = propulsion(problem.vehicle.stages[phases[j].stage], powered)
             f = flight_quantities(states, controls, model, prop)
+            hidden = set() if powered else _attitude_quantities(states, controls, model, prop)
             values.update({quantity: _in_limit_unit(quantity, f[quantity])
-                           for quantity in _LIMIT_OF_QUANTITY if quantity in f})
+                           for quantity in _LIMIT_OF_QUANTITY
+                           if quantity in f and quantity not in hidden})
             values["speed"] = np.asarray(model.kind.speed(states))
             values["mass"] = model.kind.mass(states) / 1000.0
         out.append(values)
     return out
 
 
-def _event_marks(problem: Problem, trajectory) -> list[tuple[float, str]]:
-    """Event times [s] and labels; coincident events (burnout, then staging) share one."""
+def _event_marks(problem: Problem, trajectory) -> list[tuple[float, str, list[str]]]:
+    """Events as (time [s], label, kinds); coincident events (burnout, then staging)
+    share one label and are drawn one line per kind."""
     stages = problem.vehicle.stages
     t = np.asarray(trajectory.time, dtype=float)
     span = float(t[-1] - t[0]) if t.size > 1 else 1.0
     groups: list[tuple[float, list[str], list[str]]] = []  # time, kinds, stage names
     for ev in sorted(getattr(trajectory, "events", []) or [], key=lambda e: e["time"]):
-        kind = str(ev.get("kind", "event")).replace("_", " ")
+        kind = str(ev.get("kind", "event"))
         if kind == "liftoff":
             continue
         time = float(ev["time"])
@@ -179,8 +226,24 @@ def _event_marks(problem: Problem, trajectory) -> list[tuple[float, str]]:
             kinds.append(kind)
         if name is not None and name not in names:
             names.append(name)
-    return [(time, " + ".join(kinds) + (f" ({', '.join(names)})" if names else ""))
+    return [(time, " + ".join(k.replace("_", " ") for k in kinds)
+             + (f" ({', '.join(names)})" if names else ""), kinds)
             for time, kinds, names in groups]
+
+
+def _event_kinds(events) -> list[str]:
+    """The kinds of event drawn, in order of first appearance."""
+    return list(dict.fromkeys(kind for _time, _label, kinds in events for kind in kinds))
+
+
+def _draw_events(ax, events, *, legend_labels: bool) -> None:
+    named = set()
+    for time, _label, kinds in events:
+        for kind in kinds:
+            drawn = event_kind(kind)
+            label = drawn.legend if legend_labels and kind not in named else "_nolegend_"
+            named.add(kind)
+            ax.axvline(time, gid="event", label=label, **drawn.style)
 
 
 def _draw_panel(ax, problem: Problem, trajectory, panel: _Panel, node_values, events,
@@ -200,19 +263,20 @@ def _draw_panel(ax, problem: Problem, trajectory, panel: _Panel, node_values, ev
         ax.axhline(bound[0], label=bound[1], gid="bound", **_BOUND_STYLE)
     ax.set_xlabel("time [s]")
     ax.set_ylabel(panel.ylabel)
-    ax.set_title(panel.title, fontsize=10)
+    # a title at a fixed height: matplotlib otherwise measures the axes at every draw to
+    # place it
+    ax.set_title(panel.title, fontsize=10, y=1.0, pad=4.0)
     ax.grid(True, alpha=0.3)
     if t.size > 1:
         # a little room on the right so an event at the last sample stays visible
         ax.set_xlim(t[0], t[-1] + 0.01 * (t[-1] - t[0]))
     if panel.key == "throttle":
         ax.set_ylim(0.0, 1.05 * max(1.0, ax.get_ylim()[1]))
-    for time, _label in events:
-        ax.axvline(time, gid="event", **_EVENT_STYLE)
+    _draw_events(ax, events, legend_labels=legend)
     if label_events and events:
         _label_events(ax, events)
     if legend:
-        ax.legend(fontsize=8, loc="best", framealpha=0.85)
+        ax.legend(fontsize=7, loc="best", framealpha=0.85)
 
 
 def _label_events(ax, events) -> None:
@@ -220,7 +284,7 @@ def _label_events(ax, events) -> None:
     low, high = ax.get_ylim()
     ax.set_ylim(low, high + _EVENT_BAND * (high - low) / (1.0 - _EVENT_BAND))
     x0, x1 = ax.get_xlim()
-    for i, (time, label) in enumerate(events):
+    for i, (time, label, _kinds) in enumerate(events):
         # left of the line in the right half, right of it in the left half: stays inside
         right_half = (time - x0) > 0.5 * (x1 - x0)
         # successive labels alternate between two rows so that close events stay legible
@@ -235,32 +299,87 @@ def _panels_for(problem: Problem) -> list[_Panel]:
     return [p for p in PANELS if p.shown(problem)]
 
 
-def _panel_figure(problem: Problem, trajectory, key: str, nodes=None) -> Figure:
-    """The figure of one panel (``key`` from :data:`PANELS`), not yet saved."""
-    panel = next(p for p in PANELS if p.key == key)
-    fig = Figure(figsize=_PANEL_SIZE, layout="constrained")
-    FigureCanvasAgg(fig)
-    ax = fig.add_subplot()
-    node_values = _node_quantities(problem, nodes) if nodes is not None else None
-    _draw_panel(ax, problem, trajectory, panel, node_values, _event_marks(problem, trajectory),
-                label_events=True, legend=True)
+def _fixed_margins(fig: Figure, *, left: float, right: float, top: float, bottom: float,
+                   **spacing) -> dict:
+    """Subplot parameters for margins given in inches (labels, stamp and caution fit)."""
+    width, height = fig.get_size_inches()
+    return dict(left=left / width, right=1.0 - right / width, top=1.0 - top / height,
+                bottom=bottom / height, **spacing)
+
+
+def _stamp(fig: Figure, problem: Problem, stamp: tuple[str, bool], title: str,
+           *, centred: bool) -> None:
+    stamp_figure(fig, *stamp)
     # a name is shown as written: no mathtext from a '$' in it
-    fig.suptitle(printable(problem.name), fontsize=9, color="0.3", x=0.99, ha="right",
+    if centred:
+        fig.suptitle(title, fontsize=12, y=0.995 - 0.24 / fig.get_size_inches()[1],
+                     va="top", parse_math=False)
+    else:
+        fig.text(0.992, 0.992, title, ha="right", va="top", fontsize=8.5, color="0.3",
                  parse_math=False)
+
+
+class _PanelCanvas:
+    """One figure and axes for the single-panel PNGs, emptied between panels: its axis
+    ticks are made once (a fresh figure makes them again, and its first draw took about
+    1.6 times as long as a redraw, measured on the two-stage panels)."""
+
+    def __init__(self):
+        self.fig = Figure(figsize=_PANEL_SIZE)
+        FigureCanvasAgg(self.fig)
+        self.ax = self.fig.add_subplot()
+        self.fig.subplots_adjust(**_fixed_margins(self.fig, left=0.85, right=0.2, top=0.62,
+                                                  bottom=0.78))
+
+    def empty(self):
+        """The figure and axes with no data, labels or stamps, scaling to new data."""
+        ax = self.ax
+        for artist in [*ax.lines, *ax.texts, *ax.collections, *ax.patches, *self.fig.texts]:
+            artist.remove()
+        if ax.get_legend() is not None:
+            ax.get_legend().remove()
+        ax.set_xlim(auto=True)
+        ax.set_ylim(auto=True)
+        ax.autoscale(True)
+        ax.relim()
+        return self.fig, ax
+
+
+def _panel_figure(problem: Problem, trajectory, key: str, nodes=None, *, stamp=None,
+                  node_values=None, events=None, canvas: _PanelCanvas | None = None) -> Figure:
+    """The figure of one panel (``key`` from :data:`PANELS`), not yet saved.
+
+    ``stamp`` is (text, trustworthy) from :func:`status_stamp`; by default that of a
+    forward simulation with the trajectory's status. ``canvas`` is a figure to draw on
+    again (emptied first); by default a new one.
+    """
+    panel = next(p for p in PANELS if p.key == key)
+    fig, ax = (canvas or _PanelCanvas()).empty()
+    if node_values is None and nodes is not None:
+        node_values = _node_quantities(problem, nodes)
+    if events is None:
+        events = _event_marks(problem, trajectory)
+    _draw_panel(ax, problem, trajectory, panel, node_values, events,
+                label_events=True, legend=True)
+    _stamp(fig, problem, stamp or _simulation_stamp(trajectory), printable(problem.name),
+           centred=False)
     return fig
 
 
-def _overview_figure(problem: Problem, trajectory, nodes=None) -> Figure:
+def _overview_figure(problem: Problem, trajectory, nodes=None, *, stamp=None,
+                     node_values=None, events=None) -> Figure:
     """All panels of the flight on one grid: 2x3 (vertical flight) or 3x3 (planar)."""
     panels = _panels_for(problem)
     ncols = 3
     nrows = -(-len(panels) // ncols)
-    fig = Figure(figsize=(_CELL_SIZE[0] * ncols, _CELL_SIZE[1] * nrows + 0.6),
-                 layout="constrained")
+    fig = Figure(figsize=(_CELL_SIZE[0] * ncols, _CELL_SIZE[1] * nrows + _OVERVIEW_BANDS))
     FigureCanvasAgg(fig)
-    node_values = _node_quantities(problem, nodes) if nodes is not None else None
-    events = _event_marks(problem, trajectory)
-    axes = fig.subplots(nrows, ncols, squeeze=False).ravel()
+    if node_values is None and nodes is not None:
+        node_values = _node_quantities(problem, nodes)
+    if events is None:
+        events = _event_marks(problem, trajectory)
+    axes = fig.subplots(nrows, ncols, squeeze=False, gridspec_kw=_fixed_margins(
+        fig, left=0.75, right=0.2, top=0.95, bottom=1.25, hspace=0.55, wspace=0.28)).ravel()
     for i, (ax, panel) in enumerate(zip(axes, panels)):
         # event names on the first panel only: nine copies would hide the curves
         _draw_panel(ax, problem, trajectory, panel, node_values, events,
@@ -272,26 +391,32 @@ def _overview_figure(problem: Problem, trajectory, nodes=None) -> Figure:
         handles.append(Line2D([], [], **_NODE_STYLE, label="optimiser nodes"))
     if any(_bound(problem, p.key) for p in panels):
         handles.append(Line2D([], [], **_BOUND_STYLE, label="imposed limit"))
-    if events:
-        handles.append(Line2D([], [], **_EVENT_STYLE, label="event (see first panel)"))
-    fig.legend(handles=handles, loc="outside lower center", ncols=len(handles), fontsize=9,
-               frameon=False)
-    fig.suptitle(f"{printable(problem.name)}: {problem.dynamics} ascent", fontsize=12,
-                 parse_math=False)
+    handles += [Line2D([], [], **event_kind(k).style, label=event_kind(k).legend)
+                for k in _event_kinds(events)]
+    fig.legend(handles=handles, loc="lower center", ncols=min(len(handles), 4), fontsize=9,
+               frameon=False, bbox_to_anchor=(0.5, 0.22 / fig.get_size_inches()[1]))
+    _stamp(fig, problem, stamp or _simulation_stamp(trajectory),
+           f"{printable(problem.name)}: {problem.dynamics} ascent", centred=True)
     return fig
 
 
+def _simulation_stamp(trajectory) -> tuple[str, bool]:
+    return status_stamp(str(getattr(trajectory, "status", "ok") or "ok"), simulation=True)
+
+
 def plot_trajectory(problem: Problem, trajectory, out_dir, *, nodes=None,
-                    prefix: str = "") -> list[Path]:
+                    prefix: str = "", status: str | None = None) -> list[Path]:
     """Write the time-history plots of a flight as PNG files.
 
-    One file per quantity, against time from liftoff [s]: ``altitude.png`` [km],
-    ``speed.png`` [m/s] (inertial; air-relative dashed for planar flight),
-    ``dynamic_pressure.png`` [kPa], ``axial_acceleration.png`` [g0], ``throttle.png``,
-    ``pitch.png`` [deg] (planar only), ``q_alpha.png`` [kPa deg] (planar with a q alpha
-    limit only) and ``mass.png`` [t]; then ``overview.png`` with all of them on one grid.
-    Imposed limits are drawn as dashed horizontal lines, events (burnout, staging,
-    apogee, ...) as labelled dotted vertical lines.
+    ``overview.png`` with every quantity on one grid, then one file per quantity,
+    against time from liftoff [s]: ``altitude.png`` [km], ``speed.png`` [m/s]
+    (inertial; air-relative dashed for planar flight), ``dynamic_pressure.png`` [kPa],
+    ``axial_acceleration.png`` [g0], ``q_alpha.png`` [kPa deg] (planar with a q alpha
+    limit only), ``throttle.png``, ``pitch.png`` [deg] (planar only) and ``mass.png``
+    [t] (the order of :data:`FIGURES`). Imposed limits are dashed horizontal lines;
+    events are vertical lines styled by kind (burnout, flameout, staging, apogee,
+    impact), named in the legend and labelled above the curves. Every figure is stamped
+    with the run's status and the caution.
 
     Parameters
     ----------
@@ -305,35 +430,39 @@ def plot_trajectory(problem: Problem, trajectory, out_dir, *, nodes=None,
         The optimiser's mesh, one entry per phase of ``phase_plan(problem)``:
         ``(times, controls)`` or ``(times, controls, states)``, with node times from
         liftoff [s] (N,), controls (n_u, N) (throttle, pitch [rad]) and states (n, N).
-        Drawn as markers over the replay; with states, on every panel, else on the
-        control panels only.
+        Drawn as markers over the replay (controls on powered phases only); with states,
+        on every panel, else on the control panels only.
     prefix : str, optional
         Prepended to every file name.
+    status : str, optional
+        The solve's status (``optimal``, ``not_verified``, ``infeasible``, ``failed``)
+        stamped on every figure; without it, the figures are stamped as a forward
+        simulation with the trajectory's own status.
 
     Returns
     -------
     list of Path
-        The files written, overview last.
+        The files written, in :data:`FIGURES` order (overview first).
     """
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
-    paths = []
+    stamp = _simulation_stamp(trajectory) if status is None else status_stamp(status)
+    # computed once for all the figures
+    shared = dict(stamp=stamp, events=_event_marks(problem, trajectory),
+                  node_values=_node_quantities(problem, nodes) if nodes is not None else None)
+    fig = _overview_figure(problem, trajectory, **shared)
+    paths = [out / f"{prefix}overview.png"]
+    save_png(fig, paths[0])
+    canvas = _PanelCanvas()
     for panel in _panels_for(problem):
-        fig = _panel_figure(problem, trajectory, panel.key, nodes)
+        fig = _panel_figure(problem, trajectory, panel.key, canvas=canvas, **shared)
         path = out / f"{prefix}{panel.key}.png"
-        _save(fig, path)
+        save_png(fig, path)
         paths.append(path)
-    fig = _overview_figure(problem, trajectory, nodes)
-    path = out / f"{prefix}overview.png"
-    _save(fig, path)
-    paths.append(path)
+    if has_ground_track(problem):
+        paths.append(plot_ground_track(problem, trajectory, out / f"{prefix}ground_track.png",
+                                       stamp))
     return paths
-
-
-def _save(fig: Figure, path: Path) -> None:
-    """Write a figure as PNG whole or not at all (:func:`~ascentplan.output.atomic.atomic_open`)."""
-    with atomic_open(path, "wb") as fh:
-        fig.savefig(fh, format="png", dpi=DPI)
 
 
 def result_nodes(result) -> list[tuple]:
@@ -344,7 +473,8 @@ def result_nodes(result) -> list[tuple]:
 
 
 def plot_result(result, out_dir, *, prefix: str = "") -> list[Path]:
-    """Write the plots of a solve result: its verified replay with the optimiser's nodes.
+    """Write the plots of a solve result: its replay with the optimiser's nodes, every
+    figure stamped with the result's status.
 
     Parameters
     ----------
@@ -357,66 +487,12 @@ def plot_result(result, out_dir, *, prefix: str = "") -> list[Path]:
     Returns
     -------
     list of Path
-        The files written, overview last (see :func:`plot_trajectory`); empty when the
-        result has no replay.
+        The files written, in :data:`FIGURES` order (see :func:`plot_trajectory`); empty
+        when the result has no replay.
     """
     if result.trajectory is None:
         return []
     # the replay flew the optimised masses, so the node quantities must use them too
     problem = getattr(result, "solved_problem", None) or result.problem
     return plot_trajectory(problem, result.trajectory, out_dir, nodes=result_nodes(result),
-                           prefix=prefix)
-
-
-def plot_split_map(split_map: dict, out_dir, *, unit: str, objective: str,
-                   name: str = "split_map.png") -> Path:
-    """Plot the objective over the stage-mass split around the coupled optimum.
-
-    Two stages: a line over the first stage's share of the total stage mass; three
-    stages: filled contours over the first two stages' shares. The optimum is marked.
-
-    Parameters
-    ----------
-    split_map : dict
-        From :func:`ascentplan.split.split_map`.
-    out_dir : str or Path
-    unit : str
-        Unit of the objective values.
-    objective : str
-        Objective name, for the axis label.
-    """
-    out = Path(out_dir)
-    out.mkdir(parents=True, exist_ok=True)
-    fractions = np.array(split_map["fractions"])
-    values = np.array(split_map["objective"], dtype=float)
-    names = [printable(name) for name in split_map["stage_names"]]
-    center = split_map["center_fractions"]
-    fig = Figure(figsize=(7.0, 5.0))
-    FigureCanvasAgg(fig)
-    ax = fig.add_subplot(1, 1, 1)
-    label = f"{objective.replace('_', ' ')} [{unit}]"
-    if fractions.shape[1] == 2:
-        ax.plot(100 * fractions[:, 0], values, "o-", color="tab:blue")
-        ax.axvline(100 * center[0], color="tab:red", linestyle=":", label="coupled optimum")
-        ax.set_xlabel(f"{names[0]} share of the total stage mass [%]", parse_math=False)
-        ax.set_ylabel(label)
-        ax.legend(loc="best")
-    else:
-        n = int(round(np.sqrt(len(values))))
-        f1 = 100 * fractions[:, 0].reshape(n, n)
-        f2 = 100 * fractions[:, 1].reshape(n, n)
-        z = values.reshape(n, n)
-        filled = ax.contourf(f1, f2, z, levels=12, cmap="viridis")
-        ax.contour(f1, f2, z, levels=12, colors="k", linewidths=0.4)
-        fig.colorbar(filled, ax=ax, label=label)
-        ax.plot(100 * center[0], 100 * center[1], "r*", markersize=12,
-                label="coupled optimum")
-        ax.set_xlabel(f"{names[0]} share of the total stage mass [%]", parse_math=False)
-        ax.set_ylabel(f"{names[1]} share of the total stage mass [%]", parse_math=False)
-        ax.legend(loc="best")
-    ax.set_title("Objective around the optimal stage-mass split (re-solved at each point)")
-    ax.grid(True, alpha=0.3)
-    fig.tight_layout()
-    path = out / name
-    _save(fig, path)
-    return path
+                           prefix=prefix, status=result.status)

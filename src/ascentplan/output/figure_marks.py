@@ -1,0 +1,112 @@
+"""What every figure carries so that a reviewer can trust it on its own: the run's status
+and the caution stamped on the image, and event lines drawn and named by kind.
+
+A PNG is often looked at apart from the printed summary and the report (pasted into a
+review, attached to a message), so it must say by itself whether it shows a verified
+optimum, a flight that is not a solution, or a simulation of a given schedule.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+from ascentplan.cautions import CAUTION
+from ascentplan.output.atomic import atomic_open
+
+__all__ = ["DPI", "EVENT_KINDS", "EventKind", "caution_line", "event_kind", "save_png",
+           "stamp_figure", "status_stamp"]
+
+#: resolution of every PNG [dots per inch]
+DPI = 150
+#: zlib level of the PNG files: level 1 writes several times faster than the default 6,
+#: for files somewhat larger (plots are flat colour and compress well either way)
+_PNG_COMPRESSION = 1
+
+#: a solve's status: the stamp's text and whether the figure shows a trustworthy answer
+_SOLVE_STAMPS = {
+    "optimal": ("optimal and verified by replay", True),
+    "not_verified": ("NOT VERIFIED - optimal on the mesh, but the replay disagrees", False),
+    "infeasible": ("INFEASIBLE - not a solution", False),
+    "failed": ("SOLVER FAILED - not a solution", False),
+}
+#: a forward simulation's status (no optimisation): the stamp's text and whether it is clean
+_SIMULATION_STAMPS = {
+    "ok": ("forward simulation of a given schedule - not optimised", True),
+    "impact": ("IMPACT - forward simulation of a given schedule, not optimised", False),
+    "failed": ("INTEGRATION FAILED - forward simulation of a given schedule", False),
+    "limits_exceeded": ("LIMITS EXCEEDED - forward simulation of a given schedule", False),
+}
+_GOOD_COLOUR = "#1b6e20"
+_BAD_COLOUR = "#b00020"
+
+
+def status_stamp(status: str, *, simulation: bool = False) -> tuple[str, bool]:
+    """The stamp of a run's status: (text, whether the figure shows a trustworthy result).
+
+    Parameters
+    ----------
+    status : str
+        A solve's status (``optimal``, ``not_verified``, ``infeasible``, ``failed``) or,
+        with ``simulation``, a forward simulation's (``ok``, ``impact``, ``failed``,
+        ``limits_exceeded``). An unknown status is shown in capitals as not trustworthy.
+    simulation : bool
+        The figure shows a flown schedule, not an optimisation result.
+    """
+    table = _SIMULATION_STAMPS if simulation else _SOLVE_STAMPS
+    if status in table:
+        return table[status]
+    return f"{str(status).upper()} - status not recognised, not a verified result", False
+
+
+def caution_line() -> str:
+    """The caution's first sentence (the whole caution is in the report and the summary)."""
+    first = CAUTION.split(". ", 1)[0]
+    return first if first.endswith(".") else first + "."
+
+
+def stamp_figure(fig, text: str, good: bool) -> None:
+    """Write the status (top left, green when trustworthy, red otherwise) and the caution
+    line (bottom centre) on ``fig``; the layout must leave room for both."""
+    fig.text(0.008, 0.992, text, ha="left", va="top", fontsize=8.5, fontweight="bold",
+             color=_GOOD_COLOUR if good else _BAD_COLOUR, gid="status", parse_math=False)
+    fig.text(0.5, 0.006, caution_line(), ha="center", va="bottom", fontsize=7,
+             color="0.35", gid="caution", parse_math=False)
+
+
+@dataclass(frozen=True)
+class EventKind:
+    """How one kind of event is drawn and named in the legend."""
+
+    legend: str
+    style: dict
+
+
+#: the events of a replay by kind (``replay.simulate`` records), each drawn and named its
+#: own way: a burnout is a burn ending as planned, a flameout a stage running dry before
+#: its scheduled end, staging the drop of the spent stage
+EVENT_KINDS = {
+    "burnout": EventKind("burnout (a burn ends as scheduled)",
+                         dict(color="0.3", linewidth=1.0, linestyle=":")),
+    "flameout": EventKind("flameout (ran dry before its scheduled end)",
+                          dict(color="tab:purple", linewidth=1.1, linestyle="-.")),
+    "staging": EventKind("staging (spent stage dropped)",
+                         dict(color="tab:brown", linewidth=1.0, linestyle=(0, (5, 3)))),
+    "apogee": EventKind("apogee", dict(color="tab:olive", linewidth=1.0,
+                                       linestyle=(0, (1, 3)))),
+    "impact": EventKind("impact", dict(color="black", linewidth=1.2, linestyle="-")),
+}
+
+
+def event_kind(kind: str) -> EventKind:
+    """How an event of ``kind`` is drawn; a kind not listed is named as recorded."""
+    if kind in EVENT_KINDS:
+        return EVENT_KINDS[kind]
+    return EventKind(kind.replace("_", " "), dict(color="0.5", linewidth=1.0, linestyle=":"))
+
+
+def save_png(fig, path: Path) -> None:
+    """Write a figure as PNG at :data:`DPI`, whole or not at all
+    (:func:`~ascentplan.output.atomic.atomic_open`)."""
+    with atomic_open(path, "wb") as fh:
+        fig.savefig(fh, format="png", dpi=DPI, pil_kwargs={"compress_level": _PNG_COMPRESSION})
