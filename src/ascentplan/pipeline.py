@@ -29,33 +29,40 @@ from ascentplan.transcription.propellant import propellant_accounting, residual_
 __all__ = ["ACCELERATE_AFTER", "NLPCache", "OBJECTIVE_UNITS", "Result", "clear_cache",
            "first_guess", "format_result", "solve", "write_outputs"]
 
-#: solves of one cached NLP after which its derivatives are expanded to SX (see
-#: AscentNLP.accelerate): the expansion costs about as much as two or three solves
-ACCELERATE_AFTER = 2
+#: solves of one cached NLP before which its derivatives are never expanded; after it,
+#: AscentNLP.expansion_pays decides (the expansion must repay itself over the solves to come)
+ACCELERATE_AFTER = 1
 
 
 class NLPCache:
     """Built NLPs by problem structure and mesh, so that a re-solve skips the build.
 
-    A cached NLP keeps the variable scales of the problem that built it. After
-    :data:`ACCELERATE_AFTER` reuses its derivatives are expanded (a one-off cost that
-    pays over further solves of the structure: sweeps, maps, warm starts).
+    A cached NLP keeps the variable scales of the problem that built it. Its derivatives
+    are expanded (:meth:`AscentNLP.accelerate`, a one-off cost) when
+    :meth:`AscentNLP.expansion_pays` finds that the solves still to come repay it:
+    the solves announced with :meth:`expect` (a study worker announces its remaining
+    points), else as many more as have been made (the break-even rule).
 
     Parameters
     ----------
     size : int
         Most NLPs kept; the oldest built is dropped first.
     accelerate_after : int
-        Reuses after which an NLP is accelerated.
+        Solves of an NLP before which it is never expanded.
     """
 
     def __init__(self, size: int = 8, accelerate_after: int = ACCELERATE_AFTER):
         self.size = size
         self.accelerate_after = accelerate_after
+        self.expected_solves: int | None = None
         self._entries: dict = {}  # key -> [nlp, reuses]
 
     def __len__(self) -> int:
         return len(self._entries)
+
+    def expect(self, solves: int | None) -> None:
+        """Announce ``solves`` further solves of the structures in use (None: unknown)."""
+        self.expected_solves = None if solves is None else max(0, int(solves))
 
     def get(self, problem: Problem, scales: dict, nodes: int,
             elastic: bool = False) -> tuple[AscentNLP, bool]:
@@ -65,9 +72,10 @@ class NLPCache:
         entry = self._entries.get(key)
         if entry is not None:
             entry[1] += 1
-            if entry[1] >= self.accelerate_after:
-                entry[0].accelerate()
-            return entry[0], True
+            nlp = entry[0]
+            if entry[1] >= self.accelerate_after and nlp.expansion_pays(self.expected_solves):
+                nlp.accelerate()
+            return nlp, True
         nlp = AscentNLP(problem, scales, nodes_per_phase=nodes, elastic=elastic)
         if len(self._entries) >= self.size:
             self._entries.pop(next(iter(self._entries)))

@@ -35,6 +35,8 @@ def _serve(conn) -> None:
     # alone decides what it does (it stops the workers), so a worker does not print its own
     # KeyboardInterrupt
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+    # the solver's imports (about a second) while the main process hands out the chunks
+    import ascentplan.pipeline  # noqa: F401
     while True:
         try:
             task = conn.recv()
@@ -49,10 +51,10 @@ def _serve(conn) -> None:
 
 
 def _answer_chunk(conn, task: tuple) -> None:
-    problem_path, digest, items, run = task
+    problem_path, digest, items, run, share = task
     answered = 0
     try:
-        for row in solve_points(problem_path, digest, items, run):
+        for row in solve_points(problem_path, digest, items, run, share):
             conn.send(row)
             answered += 1
     except OSError:
@@ -134,8 +136,11 @@ class LocalPool:
             self._started += 1
             self._workers.append(_Worker(self._context, self._started))
 
-    def solve(self, chunks: list, problem_path: str, digest: str, run: int):
-        """Solve the chunks on the workers.
+    def solve(self, chunks: list, problem_path: str, digest: str, run: int,
+              share: int | None = None):
+        """Solve the chunks on the workers, each chunk given to the next free worker.
+
+        ``share`` is the number of points each worker is expected to solve in all.
 
         Yields
         ------
@@ -145,19 +150,20 @@ class LocalPool:
         """
         pending = deque(chunks)
         while True:
-            self._hand_out(pending, problem_path, digest, run)
+            self._hand_out(pending, (problem_path, digest, run, share))
             busy = {w.conn: w for w in self._workers if w.left}
             if not busy and not pending:
                 return
             for conn in wait(list(busy)) if busy else ():
                 yield from self._answer(busy[conn], pending)
 
-    def _hand_out(self, pending: deque, problem_path: str, digest: str, run: int) -> None:
+    def _hand_out(self, pending: deque, task: tuple) -> None:
+        problem_path, digest, run, share = task
         for worker in list(self._workers):
             if worker.left or not pending:
                 continue
             chunk = pending.popleft()
-            if not worker.give(chunk, (problem_path, digest, chunk, run)):
+            if not worker.give(chunk, (problem_path, digest, chunk, run, share)):
                 # gone while idle: no point was lost with it
                 pending.appendleft(chunk)
                 self._replace(worker, pending)

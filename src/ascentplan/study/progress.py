@@ -1,15 +1,13 @@
-"""Progress of a running study on stderr: a tqdm bar when tqdm is installed, else one line
-per finished point."""
+"""Progress of a running study on stderr: a tqdm bar (points done of the study's points,
+with the rate and the time left), on by default and silent when asked (``--quiet``)."""
 
 from __future__ import annotations
 
 import sys
 
+from tqdm import tqdm
+
 __all__ = ["Progress"]
-
-
-def _stderr(text: str) -> None:
-    print(text, file=sys.stderr, flush=True)
 
 
 class Progress:
@@ -21,43 +19,35 @@ class Progress:
     total : int
         Points in the study.
     done : int
-        Points finished before this run.
+        Points finished before this run (a resume starts the bar there).
     name : str
         The study's title, for the bar.
     """
 
     def __init__(self, enabled: bool, total: int, done: int, name: str):
         self.enabled, self.total, self.count = enabled, total, done
+        self.failed = 0
         self.bar = None
-        if not enabled:
-            return
-        try:
-            from tqdm import tqdm
-        except ImportError:
-            return
-        self.bar = tqdm(total=total, initial=done, desc=name, unit="point", file=sys.stderr)
+        if enabled:
+            self.bar = tqdm(total=total, initial=done, desc=name, unit="point",
+                            file=sys.stderr, dynamic_ncols=True)
 
     def note(self, text: str) -> None:
-        """A line of text about the run (where it runs, how much is left)."""
-        if self.enabled:
-            (self.bar.write if self.bar is not None else _stderr)(text)
+        """A line of text about the run (where it runs, how much is left), above the bar."""
+        if self.bar is not None:
+            self.bar.write(text, file=sys.stderr)
 
     def point(self, row: dict) -> None:
         """One point finished with ``row``."""
         self.count += 1
-        if not self.enabled:
+        if row.get("error") or row.get("status") not in ("optimal", None):
+            self.failed += 1
+        if self.bar is None:
             return
-        if self.bar is not None:
-            self.bar.update(1)
-            return
-        if row.get("error"):
-            what = f"failed: {row['error']}"
-        elif row.get("objective") is not None:
-            what = f"{row['status']}, objective {row['objective']:.6g} {row['objective_unit']}"
-        else:
-            what = row["status"]
-        _stderr(f"[{self.count}/{self.total}] point {row['index']}: {what} "
-                f"({row.get('wall_time_s', 0.0):.2f} s)")
+        if self.failed:
+            # a study whose points fail should not look clean at a glance
+            self.bar.set_postfix_str(f"{self.failed} not optimal", refresh=False)
+        self.bar.update(1)
 
     def close(self) -> None:
         if self.bar is not None:

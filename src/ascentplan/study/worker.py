@@ -25,6 +25,8 @@ __all__ = ["failed_row", "solve_chunk", "solve_points", "worker_name"]
 _SOLVE_LOCK = threading.Lock()
 #: the problem document and problem of the file last read, by (path, SHA-256)
 _BASES: dict = {}
+#: points this process has solved for each study run, by (path, SHA-256, run)
+_SOLVED: dict = {}
 
 
 def worker_name() -> str:
@@ -51,9 +53,15 @@ def _base(path: str, digest: str) -> tuple[dict, Problem]:
     return _BASES[key]
 
 
-def solve_points(problem_path: str, digest: str, items: list, run: int):
+def solve_points(problem_path: str, digest: str, items: list, run: int,
+                 share: int | None = None):
     """Solve neighbouring points in order, each warm-started from the previous converged
     one of the same NLP structure, and yield each row as its point finishes.
+
+    The built NLP stays in the process for the next chunk. Before each point the NLP
+    cache is told how many points this process still expects to solve (``share`` less
+    those it has solved in this run), so that it expands the NLP's derivatives only when
+    that repays its cost.
 
     Parameters
     ----------
@@ -64,18 +72,24 @@ def solve_points(problem_path: str, digest: str, items: list, run: int):
         Index and changes of each point.
     run : int
         The run of the study folder that solves them.
+    share : int, optional
+        Points this process is expected to solve in the whole run (all its chunks).
 
     Yields
     ------
     dict
         One row per point, in order; a point that raised has its error in its row.
     """
-    from ascentplan.pipeline import solve
+    from ascentplan.pipeline import NLP_CACHE, solve
     from ascentplan.transcription.nlp import structure_key
 
+    counted = (problem_path, digest, run)
     with _SOLVE_LOCK:
         previous = None
         for index, changes in items:
+            solved_here = _SOLVED.get(counted, 0)
+            NLP_CACHE.expect(None if share is None else max(1, share - solved_here))
+            _SOLVED[counted] = solved_here + 1
             start = _time.perf_counter()
             try:
                 document, base = _base(problem_path, digest)
@@ -93,9 +107,11 @@ def solve_points(problem_path: str, digest: str, items: list, run: int):
                 row = failed_row(index, run, changes, exc, _time.perf_counter() - start)
                 previous = None
             yield row
+        NLP_CACHE.expect(None)
 
 
-def solve_chunk(problem_path: str, digest: str, items: list, run: int) -> list:
+def solve_chunk(problem_path: str, digest: str, items: list, run: int,
+                share: int | None = None) -> list:
     """The rows of :func:`solve_points` as one list, for a task that answers once (a Dask
     task).
 
@@ -104,7 +120,7 @@ def solve_chunk(problem_path: str, digest: str, items: list, run: int) -> list:
     list of dict
         One row per point, in order.
     """
-    return list(solve_points(problem_path, digest, items, run))
+    return list(solve_points(problem_path, digest, items, run, share))
 
 
 def _finite(value: Any):
