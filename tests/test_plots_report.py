@@ -250,8 +250,9 @@ def test_every_png_is_stamped_with_the_status_and_the_caution(planar_result, pla
                                                               tmp_path, monkeypatch):
     saved = _saved_figures(monkeypatch)
     plots_module.plot_result(planar_result, tmp_path / "solved")
-    assert [stem for stem, _ in saved] == [s for s in FIGURES if s not in ("q_alpha",
-                                                                           "split_map")]
+    # planar flight: no q-alpha limit here, no split, no ground track (three-dimensional)
+    assert [stem for stem, _ in saved] == [s for s in FIGURES if s not in (
+        "q_alpha", "split_map", "ground_track")]
     for stem, texts in saved:
         assert texts["status"] == "optimal and verified by replay", stem
         assert texts["caution"] == caution_line(), stem

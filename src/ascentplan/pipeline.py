@@ -252,6 +252,8 @@ class Result:
                                                                {}).items()},
             "caution": CAUTION,
         }
+        if self.verification.orbit is not None:
+            d["orbit"] = self.verification.orbit
         if self.infeasibility is not None:
             d["infeasibility"] = self.infeasibility.summary()
         d.update(self.extra)

@@ -43,6 +43,7 @@ from ascentplan.models.dynamics import altitude_speed_fpa, dynamics_kind
 from ascentplan.problem.limits import LIMITS
 from ascentplan.problem.model import Problem, phase_plan
 from ascentplan.problem.objectives import OBJECTIVE_SPECS, Outcome
+from ascentplan.replay.orbit_check import compare_orbits
 
 #: tolerance of a flight-path angle target on the replay [deg] (common practice: an
 #: injection angle error of 0.01 deg moves a 200 km perigee by well under a kilometre)
@@ -146,6 +147,8 @@ class Verification:
     objective_independently_replayed: bool = True
     burnout_speed_tolerance_m_s: float = float("nan")
     burnout_altitude_tolerance_m: float = float("nan")
+    #: the burnout orbit as elements, optimiser and replay compared (replay.orbit_check)
+    orbit: dict | None = None
 
 
 def limit_allowance(mesh) -> float:
@@ -311,6 +314,8 @@ def verify(problem: Problem, solution, trajectory) -> Verification:
         reasons.append(f"burnout altitude differs by {dh:+.1f} m (tolerance {h_tol:.1f} m)")
     missed = target_miss(problem, xb_rep)
     reasons += missed.reasons()
+    orbit_compared, orbit_reasons = compare_orbits(problem, xb_nlp, xb_rep)
+    reasons += orbit_reasons
     allowed = limit_allowance(mesh)
     checks = [replace(c, tolerance_fraction=allowed, margin_fraction=mesh.limit_margin)
               for c in limit_peaks(problem, trajectory)]
@@ -336,7 +341,7 @@ def verify(problem: Problem, solution, trajectory) -> Verification:
                         burnout_speed_tolerance_m_s=float(v_tol),
                         burnout_altitude_tolerance_m=float(h_tol),
                         objective_independently_replayed=independently_replayed(
-                            problem, trajectory))
+                            problem, trajectory), orbit=orbit_compared)
 
 
 def independently_replayed(problem: Problem, trajectory) -> bool:
