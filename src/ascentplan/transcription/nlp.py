@@ -25,7 +25,7 @@ from dataclasses import dataclass
 import casadi as ca
 import numpy as np
 
-from ascentplan.models import dynamics, orbit
+from ascentplan.models import dynamics
 from ascentplan.problem.model import Problem, phase_plan
 from ascentplan.problem.objectives import OBJECTIVE_SPECS, Outcome
 from ascentplan.transcription.collocation import COLLOCATION_SCHEMES
@@ -39,6 +39,7 @@ from ascentplan.transcription.masses import (
     vehicle_parameter_sizes,
     vehicle_parameter_values,
 )
+from ascentplan.transcription.orbit_targets import add_orbit_targets
 from ascentplan.transcription.phases import (
     carrier_state,
     control_bounds,
@@ -350,7 +351,7 @@ class AscentNLP:
         add = self.conditions.target
         altitude_scale, speed_scale = self._scale_of("altitude"), self._scale_of("speed")
         if t.circular_orbit_altitude is not None:
-            self._add_orbit_targets(xb)
+            add_orbit_targets(self, xb)
             rt = planet.radius + t.circular_orbit_altitude
             v_circular = np.sqrt(planet.gravitational_parameter / rt)
             add("target_altitude", (kind.radius(xb, planet) - rt) / altitude_scale)
@@ -369,22 +370,7 @@ class AscentNLP:
             add("target_flight_path_angle",
                 (kind.radial_speed(xb) * np.cos(gam) - kind.horizontal_speed(xb) * np.sin(gam))
                 / speed_scale)
-        self._add_orbit_targets(xb)
-
-    def _add_orbit_targets(self, xb) -> None:
-        """An orbit's size, shape and plane at burnout (:func:`orbit.orbit_conditions`), and
-        a given launch azimuth as the heading at the first node of the first burn."""
-        t = self.problem.target
-        if t.names_orbit or t.inclination is not None:
-            r, v = self.kind.position_velocity(xb)
-            for name, expr in orbit.orbit_conditions(r, v, t, self.problem.planet):
-                self.conditions.target(name, expr)
-        azimuth = self.problem.launch.azimuth
-        if azimuth is not None and self.kind.has_control("heading"):
-            j = next(j for j, ph in enumerate(self.phases) if ph.kind == "burn")
-            k = self.kind.control_index("heading")
-            self.rows.add("launch_azimuth", self.phase_vars[j].controls[k, 0] - azimuth,
-                          0.0, 0.0)
+        add_orbit_targets(self, xb)
 
     def _set_objective(self, xb, masses: StackMasses) -> None:
         """The objective of the problem's :data:`OBJECTIVE_SPECS` entry, scaled to order one."""
@@ -481,29 +467,16 @@ class AscentNLP:
         return True
 
     def expansion_pays(self, expected_solves: float | None = None) -> bool:
-        """Whether :meth:`accelerate` is expected to repay its cost over the solves to come.
+        """Whether :meth:`accelerate` would repay its cost over the solves to come.
 
-        The rule, in IPOPT iterations so that it holds on any machine: the expansion
-        costs about :data:`EXPANSION_COST_ITERATIONS` iterations of the unexpanded solver
-        and saves :data:`EXPANSION_SAVING_FRACTION` of every later iteration, so it pays
-        when the iterations still to come exceed their ratio (100). The iterations to
-        come are the solves to come times the mean iterations of this NLP's solves so
-        far. ``expected_solves`` is what a caller knows (the points a study worker has
-        left); without it, as many more solves are expected as have been made, the
-        break-even rule of renting against buying: the expansion is bought once the
-        slow derivatives have cost as much as it does, never more than about twice the
-        better choice in hindsight (Karlin, Manasse, McGeoch and Owicki, Algorithmica 11,
-        1994). A loop of five warm-started solves (about 50 iterations) then never
-        expands, while a sweep worker with 20 points does so on its second solve.
-
-        Measured (expansion time over the time of one unexpanded iteration; fraction of
-        an iteration saved), on a loaded two-core machine: goddard 17 and 0.58,
-        sounding_rocket 37 and 0.73, small_launcher 34 to 51 and 0.40 to 0.70.
-
-        Parameters
-        ----------
-        expected_solves : float, optional
-            Further solves of this NLP the caller expects.
+        Counted in IPOPT iterations, so that it holds on any machine: the expansion costs
+        about :data:`EXPANSION_COST_ITERATIONS` unexpanded iterations and saves
+        :data:`EXPANSION_SAVING_FRACTION` of each later one, so it pays when over 100
+        iterations are to come: ``expected_solves`` (what a caller knows, e.g. the points
+        a study worker has left) times this NLP's mean iterations per solve. Without it,
+        as many more solves are expected as were made: the break-even rule of renting
+        against buying (Karlin et al., Algorithmica 11, 1994), never worse than about
+        twice the better choice in hindsight. Measurements: DEVELOPERS.md, numerical notes.
         """
         if self.accelerated or self.solves_done == 0:
             return False
