@@ -33,11 +33,14 @@ def test_goddard_maximum_altitude():
 
 def _infeasible_file(tmp_path):
     # the invented sounding rocket with a 1 kPa dynamic-pressure bound and a throttle that
-    # cannot go below 80 %: even minimum throttle passes 1 kPa a few seconds after liftoff
+    # cannot go below 80 %, burning to depletion: even minimum throttle passes 1 kPa a few
+    # seconds after liftoff (a motor allowed to shut down early could instead stop at once
+    # and stay under the bound, a feasible if useless flight)
     text = (PROBLEMS / "sounding_rocket.yaml").read_text()
     text = text.replace("max_dynamic_pressure: 50 kPa", "max_dynamic_pressure: 1 kPa")
-    text = text.replace("throttle: {min: 0.4, max: 1.0}", "throttle: {min: 0.8, max: 1.0}")
-    assert "1 kPa" in text and "min: 0.8" in text
+    text = text.replace("throttle: {min: 0.4, max: 1.0}",
+                        "throttle: {min: 0.8, max: 1.0}\n      shutdown: at_depletion")
+    assert "1 kPa" in text and "min: 0.8" in text and "at_depletion" in text
     path = tmp_path / "infeasible.yaml"
     path.write_text(text)
     return path
