@@ -305,9 +305,43 @@ def _memory_section(data):
     return lines + [""] + _goal_lines(data.get("goals", []))
 
 
+def _study_section(data):
+    lines = ["## Trade study on one and two workers", "",
+             "Regenerate: `python tests/benchmarks/bench_study.py`", ""] + _machine_lines(data)
+    lines += [f"A {len(data['bounds_kPa'])}-point sweep of `{data['swept']}` of "
+              f"`{data['problem']}`, each study in a fresh interpreter, 1 and 2 workers "
+              f"alternating, {data['repeats']} run(s) each; wall time of `run_study`.", ""]
+    rows = []
+    for workers, runs in data["runs"].items():
+        for r in runs:
+            rows.append([workers, _f(r.get("wall_time_s")), r.get("optimal"),
+                         r.get("warm_started"), r.get("points_per_worker"),
+                         r.get("solve_time_per_worker_s"), r.get("load_average_after")])
+    lines += _table(["workers", "wall time [s]", "optimal", "warm-started",
+                     "points per worker", "point time per worker [s]", "load after"], rows)
+    lines += ["", f"Speed-up of 2 workers over 1 (median wall times): "
+                  f"{data['speedup_2_over_1']:.2f}x", ""]
+    return lines + _goal_lines(data.get("goals", []))
+
+
+def _outputs_section(data):
+    lines = ["## Writing the results of a solve", "",
+             "Regenerate: `python tests/benchmarks/bench_outputs.py`", ""] + _machine_lines(data)
+    lines += [f"Each example in a fresh interpreter, {data['repeats']} run(s), medians: the "
+              "solve (with the split comparison and map where the file asks) against writing "
+              "summary.json, the CSV files, every PNG and report.html.", ""]
+    lines += _table(["example", "status", "PNG files", "solve [s]", "outputs [s]",
+                     "outputs / solve"],
+                    [[r["example"], r.get("status", r.get("error")), len(r.get("pngs", [])),
+                      _f(r.get("solve_s")), _f(r.get("outputs_s")),
+                      _f(r.get("outputs_over_solve"))] for r in data["examples"]])
+    return lines + [""] + _goal_lines(data.get("goals", []))
+
+
 _SECTIONS = (("examples.json", _examples_section), ("scaling.json", _scaling_section),
              ("baseline.json", _baseline_section), ("split.json", _split_section),
-             ("memory.json", _memory_section))
+             ("memory.json", _memory_section),
+             ("study.json", _study_section), ("outputs.json", _outputs_section))
 
 
 def finish(name: str, data: dict, quick: bool) -> int:

@@ -1,0 +1,102 @@
+"""Writing the results of a solve against the solve itself, per example problem.
+
+Each example runs in a fresh interpreter (``--point``), as ``ascentplan solve`` does: the
+solve (with the split comparison and, where the file asks, the split map's re-solves),
+then the result files (``summary.json``, the CSV files, every PNG and ``report.html``),
+timed apart. The first plot of a process pays for importing matplotlib and loading its
+fonts; that is part of writing the outputs, so it is counted there. The split map's PNG
+is drawn by the solve in the command; here it is drawn after the solve and counted with
+the outputs.
+
+Run: python tests/benchmarks/bench_outputs.py [--quick] [--repeats N]
+Writes results/benchmarks/outputs.json (results/benchmarks/quick/ with --quick).
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+sys.path.insert(0, str(HERE))
+
+from _common import (  # noqa: E402
+    PROBLEMS,
+    emit_point,
+    finish,
+    machine_info,
+    median,
+    run_point,
+)
+
+QUICK_EXAMPLES = ("goddard", "small_launcher")
+
+
+def _point(name: str) -> None:
+    from ascentplan.output.plots import plot_split_map
+    from ascentplan.pipeline import solve, write_outputs
+    from ascentplan.problem.loader import load_problem
+    from ascentplan.problem.objectives import OBJECTIVE_SPECS
+    from ascentplan.staging.coupled import solve_with_split_comparison
+
+    problem = load_problem(PROBLEMS / f"{name}.yaml")
+    t0 = time.perf_counter()
+    if problem.mass_split is not None:
+        result = solve_with_split_comparison(problem, map_points=problem.mass_split.map_points
+                                             or None, out_dir=None)
+    else:
+        result = solve(problem)
+    solve_s = time.perf_counter() - t0
+    with tempfile.TemporaryDirectory() as folder:
+        t0 = time.perf_counter()
+        split = result.extra.get("mass_split", {}).get("map")
+        if split:
+            plot_split_map(split, folder, unit=OBJECTIVE_SPECS[problem.objective].unit,
+                           objective=problem.objective)
+        written = write_outputs(result, folder)
+        outputs_s = time.perf_counter() - t0
+        pngs = sorted(p.name for p in Path(folder).glob("*.png"))
+    emit_point({"example": name, "status": result.status, "solve_s": solve_s,
+                "outputs_s": outputs_s, "files": len(written), "pngs": pngs})
+
+
+def main(argv=None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__)
+    parser.add_argument("--quick", action="store_true", help="two examples, one repeat")
+    parser.add_argument("--repeats", type=int, default=3)
+    parser.add_argument("--point", metavar="EXAMPLE", help=argparse.SUPPRESS)
+    args = parser.parse_args(argv)
+    if args.point:
+        _point(args.point)
+        return 0
+    names = QUICK_EXAMPLES if args.quick else sorted(p.stem for p in PROBLEMS.glob("*.yaml"))
+    repeats = 1 if args.quick else max(1, args.repeats)
+    rows, goals = [], []
+    for name in names:
+        runs = [run_point(__file__, [name]) for _ in range(repeats)]
+        failed = [r["error"] for r in runs if "error" in r]
+        if failed:
+            rows.append({"example": name, "error": failed[0]})
+            print(f"{name}: {failed[0]}", flush=True)
+            continue
+        row = {"example": name, "status": runs[0]["status"], "pngs": runs[0]["pngs"],
+               "solve_s": median([r["solve_s"] for r in runs]),
+               "outputs_s": median([r["outputs_s"] for r in runs]),
+               "runs": runs}
+        row["outputs_over_solve"] = row["outputs_s"] / row["solve_s"]
+        rows.append(row)
+        print(f"{name}: solve {row['solve_s']:.2f} s, outputs {row['outputs_s']:.2f} s "
+              f"({len(row['pngs'])} PNG)", flush=True)
+        goals.append({"goal": f"{name}: writing the outputs no slower than the solve",
+                      "met": bool(row["outputs_s"] <= row["solve_s"]),
+                      "evidence": f"median solve {row['solve_s']:.2f} s, outputs "
+                                  f"{row['outputs_s']:.2f} s over {repeats} run(s)"})
+    data = {"machine": machine_info(), "repeats": repeats, "examples": rows, "goals": goals}
+    return finish("outputs", data, args.quick)
+
+
+if __name__ == "__main__":
+    sys.exit(main())
