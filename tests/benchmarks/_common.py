@@ -305,6 +305,24 @@ def _memory_section(data):
     return lines + [""] + _goal_lines(data.get("goals", []))
 
 
+def _exchange_section(data):
+    lines = ["## Exchange ratios: what they add to a solve", "",
+             f"Regenerate: `{data['command']}`", ""] + _machine_lines(data)
+    lines += [f"{data['repeats']} pairs of cold solves per problem, each pair in a fresh "
+              "interpreter: `solve()` plus `exchange_ratios()` as shipped, against `solve()` "
+              "with IPOPT's parameter multipliers switched off (`calc_lam_p` False) and no "
+              "ratios computed; times are medians, the added fractions medians over the pairs.",
+              ""]
+    lines += _table(["problem", "status", "ratios", "with [s]", "without [s]", "added (wall)",
+                     "with CPU [s]", "without CPU [s]", "added (CPU)", "conversion [s]"],
+                    [[r["problem"], r["status"], r["exchange_ratios"], r["with_total_s"],
+                      r["without_total_s"], f"{r['added_fraction_wall']:+.1%}",
+                      r["with_total_cpu_s"], r["without_total_cpu_s"],
+                      f"{r['added_fraction_cpu']:+.1%}", r["ratios_s"]]
+                     for r in data["rows"]])
+    return lines + [""] + _goal_lines(data.get("goals", []))
+
+
 def _study_section(data):
     lines = ["## Trade study on one and two workers", "",
              "Regenerate: `python tests/benchmarks/bench_study.py`", ""] + _machine_lines(data)
@@ -340,7 +358,7 @@ def _outputs_section(data):
 
 _SECTIONS = (("examples.json", _examples_section), ("scaling.json", _scaling_section),
              ("baseline.json", _baseline_section), ("split.json", _split_section),
-             ("memory.json", _memory_section),
+             ("memory.json", _memory_section), ("exchange.json", _exchange_section),
              ("study.json", _study_section), ("outputs.json", _outputs_section))
 
 
