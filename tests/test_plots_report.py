@@ -237,10 +237,10 @@ def _saved_figures(monkeypatch, module=plots_module) -> list:
     saved = []
     original = figure_marks.save_png
 
-    def record(fig, path):
+    def record(fig, path, **options):
         texts = {t.get_gid(): t.get_text() for t in fig.texts if t.get_gid()}
         saved.append((Path(path).stem, texts))
-        original(fig, path)
+        original(fig, path, **options)
 
     monkeypatch.setattr(module, "save_png", record)
     return saved

@@ -8,14 +8,17 @@ optimum, a flight that is not a solution, or a simulation of a given schedule.
 
 from __future__ import annotations
 
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 from pathlib import Path
+
+import numpy as np
 
 from ascentplan.cautions import CAUTION
 from ascentplan.output.atomic import atomic_open
 
-__all__ = ["DPI", "EVENT_KINDS", "EventKind", "caution_line", "event_kind", "save_png",
-           "stamp_figure", "status_stamp"]
+__all__ = ["DPI", "EVENT_KINDS", "EventKind", "PngWriter", "caution_line", "event_kind",
+           "save_png", "stamp_figure", "status_stamp"]
 
 #: resolution of every PNG [dots per inch]
 DPI = 150
@@ -105,8 +108,50 @@ def event_kind(kind: str) -> EventKind:
     return EventKind(kind.replace("_", " "), dict(color="0.5", linewidth=1.0, linestyle=":"))
 
 
-def save_png(fig, path: Path) -> None:
+def save_png(fig, path: Path, writer: PngWriter | None = None) -> None:
     """Write a figure as PNG at :data:`DPI`, whole or not at all
-    (:func:`~ascentplan.output.atomic.atomic_open`)."""
+    (:func:`~ascentplan.output.atomic.atomic_open`); through ``writer`` when given (the
+    figure is drawn now, its file written in the background)."""
+    if writer is not None:
+        writer.save(fig, path)
+        return
     with atomic_open(path, "wb") as fh:
         fig.savefig(fh, format="png", dpi=DPI, pil_kwargs={"compress_level": _PNG_COMPRESSION})
+
+
+def _write_pixels(pixels: np.ndarray, path: Path) -> None:
+    from PIL import Image
+
+    with atomic_open(path, "wb") as fh:
+        Image.fromarray(pixels, "RGBA").save(fh, format="png", dpi=(DPI, DPI),
+                                             compress_level=_PNG_COMPRESSION)
+
+
+class PngWriter:
+    """Draws each figure when asked and writes its PNG in a background thread, so that
+    the compression of one file (Pillow's encoder runs outside the interpreter lock)
+    overlaps the drawing of the next figure. A context manager: leaving it waits for
+    every file and raises the first error of a write.
+    """
+
+    def __init__(self):
+        self._executor = ThreadPoolExecutor(max_workers=1, thread_name_prefix="png-writer")
+        self._futures: list = []
+
+    def __enter__(self) -> PngWriter:
+        return self
+
+    def __exit__(self, *exc) -> None:
+        try:
+            for future in self._futures:
+                future.result()
+        finally:
+            self._executor.shutdown(wait=True)
+
+    def save(self, fig, path: Path) -> None:
+        """Draw ``fig`` at :data:`DPI` now; its file is written in the background."""
+        fig.set_dpi(DPI)
+        fig.canvas.draw()
+        # a copy: the figure may be drawn again (a reused canvas) before the file is done
+        pixels = np.array(fig.canvas.buffer_rgba(), copy=True)
+        self._futures.append(self._executor.submit(_write_pixels, pixels, Path(path)))

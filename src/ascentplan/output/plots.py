@@ -22,7 +22,14 @@ from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 
 from ascentplan.models.dynamics import dynamics_kind, flight_model, flight_quantities, propulsion
-from ascentplan.output.figure_marks import DPI, event_kind, save_png, stamp_figure, status_stamp
+from ascentplan.output.figure_marks import (
+    DPI,
+    PngWriter,
+    event_kind,
+    save_png,
+    stamp_figure,
+    status_stamp,
+)
 from ascentplan.output.ground_track import has_ground_track, plot_ground_track
 from ascentplan.output.split_map_plot import plot_split_map
 from ascentplan.output.text import printable
@@ -450,15 +457,14 @@ def plot_trajectory(problem: Problem, trajectory, out_dir, *, nodes=None,
     # computed once for all the figures
     shared = dict(stamp=stamp, events=_event_marks(problem, trajectory),
                   node_values=_node_quantities(problem, nodes) if nodes is not None else None)
-    fig = _overview_figure(problem, trajectory, **shared)
-    paths = [out / f"{prefix}overview.png"]
-    save_png(fig, paths[0])
-    canvas = _PanelCanvas()
-    for panel in _panels_for(problem):
-        fig = _panel_figure(problem, trajectory, panel.key, canvas=canvas, **shared)
-        path = out / f"{prefix}{panel.key}.png"
-        save_png(fig, path)
-        paths.append(path)
+    paths = [out / f"{prefix}{stem}.png" for stem in
+             ("overview", *(panel.key for panel in _panels_for(problem)))]
+    with PngWriter() as writer:
+        save_png(_overview_figure(problem, trajectory, **shared), paths[0], writer=writer)
+        canvas = _PanelCanvas()
+        for panel, path in zip(_panels_for(problem), paths[1:]):
+            fig = _panel_figure(problem, trajectory, panel.key, canvas=canvas, **shared)
+            save_png(fig, path, writer=writer)
     if has_ground_track(problem):
         paths.append(plot_ground_track(problem, trajectory, out / f"{prefix}ground_track.png",
                                        stamp))
