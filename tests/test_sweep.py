@@ -97,11 +97,14 @@ def test_limit_sweep_rows_in_order_optimal_and_objective_non_decreasing(sweep_ru
     assert all(r["status"] == "optimal" and r["verified"] and r["error"] is None
                for r in rows)
     assert all(r["objective_unit"] == "m/s" and r["run"] == 1 for r in rows)
-    # the limit binds at each bound: the replayed peak is the bound to the verification
-    # tolerance (mesh.limit_tolerance_fraction, 0.5 %)
+    # the limit binds at each bound: the optimiser holds it mesh.limit_margin (0.75 %)
+    # inside, and the replayed peak lies within the verification tolerance
+    # (mesh.limit_tolerance_fraction, 0.5 %) of that, never above the bound
+    margin = load_problem(study.problem_path).mesh.limit_margin
     for r in rows:
         assert r["max_dynamic_pressure.active"]
-        assert abs(r["max_dynamic_pressure.peak"] / r["max_dynamic_pressure.bound"] - 1) < 5e-3
+        ratio = r["max_dynamic_pressure.peak"] / r["max_dynamic_pressure.bound"]
+        assert 1.0 - margin - 5e-3 <= ratio <= 1.0
     # a larger feasible set cannot lower the optimum (common practice)
     objectives = [r["objective"] for r in rows]
     assert all(b >= a for a, b in zip(objectives, objectives[1:]))

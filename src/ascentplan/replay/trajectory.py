@@ -116,7 +116,7 @@ class Trajectory:
         horizontal_speed_m_s), relative_speed_m_s, dynamic_pressure_Pa, mach,
         axial_acceleration_g0, the kind's extra columns (planar: angle_of_attack_deg,
         q_alpha_Pa_rad), thrust_N, drag_N, mass_flow_kg_s, density_kg_m3, pressure_Pa and
-        the running loss budget (ideal_dv_m_s, gravity_loss_m_s, ...) [m s^-1].
+        the running loss budget (ideal_velocity_increment_m_s, gravity_loss_m_s, ...) [m s^-1].
         """
         q = self.quantities
         kind = self.kind
