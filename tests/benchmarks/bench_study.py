@@ -43,8 +43,9 @@ def _point(workers: int, points: int) -> None:
     from ascentplan.study.runner import run_study
     from ascentplan.study.spec import limit_sweep
 
+    # bounds with their unit: a bare number would be read in SI units (Pa)
     study = limit_sweep(str(problem_path("small_launcher")), "max_dynamic_pressure",
-                        BOUNDS_KPA[:points])
+                        [f"{bound} kPa" for bound in BOUNDS_KPA[:points]])
     with tempfile.TemporaryDirectory() as folder:
         t0 = time.perf_counter()
         rows = run_study(study, Path(folder) / "study", workers=workers, progress=False)
