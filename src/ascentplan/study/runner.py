@@ -6,10 +6,12 @@ the workers and leave the folder ready to resume.
 Measured before the chunks were evened out: a 20-point sweep on 2 workers ran at 0.82 times
 the speed of 1 worker, its chunks of 8, 8 and 4 points leaving one worker with 12 points
 and each worker paying a derivative expansion that a three-solve rule triggered whether or
-not it paid. Now the chunks are 10 and 10, and each worker is told how many points it is
+not it paid. Now the chunks are 10 and 10, each worker is told how many points it is
 expected to solve, so that it expands its derivatives only when they repay the cost
-(:meth:`ascentplan.transcription.nlp.AscentNLP.expansion_pays`);
-``tests/benchmarks/bench_study.py`` measures the speed-up.
+(:meth:`ascentplan.transcription.nlp.AscentNLP.expansion_pays`), and local workers run
+their numerical libraries on one thread (:mod:`ascentplan.study.pool`);
+``tests/benchmarks/bench_study.py`` measures the speed-up, beside how much CPU two
+processes can get on the machine at the time.
 """
 
 from __future__ import annotations
@@ -255,7 +257,10 @@ def run_study(study: Study, out_dir, *, workers: int | None = None, scheduler=No
         (``"tcp://127.0.0.1:8786"``) or a connected client. The same chunk function runs
         there; each worker must import ascentplan and see the problem file at
         ``study.problem_path``. Give Dask workers one thread each (``--nthreads 1``):
-        solves in one worker process take turns.
+        solves in one worker process take turns; and start them with
+        ``OMP_NUM_THREADS=1 OPENBLAS_NUM_THREADS=1``, as local workers are started, so
+        that the numerical libraries do not start thread pools that fight over the
+        cores.
     progress : bool
         A progress bar on stderr (tqdm); False for none (the command's ``--quiet``).
     chunk_size : int, optional
