@@ -198,3 +198,81 @@ def test_transfer_orbit_example_reaches_its_orbit():
     assert math.degrees(el["inclination"]) == pytest.approx(41.0, abs=0.01)
     # the azimuth it found: cos i = cos(lat_geocentric) sin(Az_inertial) (Vallado 6.4)
     assert result.objective_value > 1000.0
+
+
+_ORBITS = {
+    # a southerly azimuth from 30 deg N to 60 deg (the branch pi - Az of Vallado 6.4)
+    "southerly": ({"launch.latitude": "30 deg", "launch.direction": "southerly"},
+                  {"circular_orbit_altitude": "200 km", "inclination": "60 deg"}),
+    "polar": ({"launch.latitude": "30 deg"},
+              {"circular_orbit_altitude": "200 km", "inclination": "90 deg"}),
+    "retrograde": ({"launch.latitude": "30 deg"},
+                   {"circular_orbit_altitude": "200 km", "inclination": "100 deg"}),
+    # node chosen so that the plane holds the site near liftoff: sin u = sin(lat)/sin(i),
+    # tan(alpha - node) = cos(i) tan(u) gives node = -43.5 deg at liftoff (spherical
+    # trigonometry, Vallado 6.4), plus the ~2 deg the planet turns during the ascent
+    "argument_of_perigee": ({"launch.latitude": "30 deg"},
+                            {"perigee_altitude": "200 km", "apogee_altitude": "1000 km",
+                             "inclination": "40 deg", "ascending_node": "318 deg",
+                             "argument_of_perigee": "70 deg"}),
+}
+
+
+def _coarse(case):
+    changes, target = _ORBITS[case]
+    doc = _document(**changes)
+    doc["target"] = target
+    doc["mesh"] = {"nodes_per_phase": 10, "max_refinements": 1}
+    return problem_from_dict(doc)
+
+
+@pytest.mark.parametrize("case", sorted(_ORBITS))
+def test_southerly_polar_retrograde_and_perigee_targets_are_met(case):
+    """Each target met by the replay: inclination within 0.01 deg, node and argument of
+    perigee (where given) within 0.1 deg, perigee and apogee within max(1 km, 0.1 %), as
+    orbit.elements computes them from the replayed burnout (Curtis algorithm 4.2); a
+    southerly launch crosses the target plane heading south (negative north component of
+    the inertial velocity at burnout: geometry of the branch, common practice)."""
+    problem = _coarse(case)
+    result = solve(problem)
+    assert result.status == "optimal", result.message
+    planet, target = problem.planet, problem.target
+    xb = np.asarray(result.trajectory.burnout_state())
+    el = orbit.elements(xb[:3], xb[3:6], planet.gravitational_parameter)
+    assert math.degrees(el["inclination"]) == pytest.approx(
+        math.degrees(target.inclination), abs=0.01)
+    wanted = orbit.target_radii(target, planet)
+    for got, want in zip((el["perigee_radius"], el["apogee_radius"]), wanted):
+        assert abs(got - want) <= max(1e3, 1e-3 * (want - planet.radius))
+    if target.ascending_node is not None:
+        assert math.degrees(el["ascending_node"]) == pytest.approx(
+            math.degrees(target.ascending_node), abs=0.1)
+        assert math.degrees(el["argument_of_perigee"]) == pytest.approx(
+            math.degrees(target.argument_of_perigee), abs=0.1)
+    if case == "southerly":
+        r, v = xb[:3], xb[3:6]
+        north = np.array([0.0, 0.0, 1.0]) - r[2] * r / float(r @ r)
+        assert float(v @ north) < 0.0
+
+
+def test_written_schedule_flies_back_the_same_three_dimensional_flight(tmp_path):
+    """schedule.csv of a three-dimensional solve carries heading_deg; read back and flown
+    it gives the solve's own replay to 1e-6 (relative in position and velocity, the same
+    integrator on the same nodes: a self-consistency check)."""
+    from ascentplan import simulate
+    from ascentplan.output.files import read_schedule_csv, write_schedule_csv
+    from ascentplan.problem.model import phase_plan
+
+    result = solve(_coarse("polar"))
+    assert result.status == "optimal", result.message
+    path = tmp_path / "schedule.csv"
+    write_schedule_csv(result.schedule, path, phase_plan(result.problem))
+    header = next(line for line in path.read_text().splitlines() if not line.startswith("#"))
+    assert header.endswith(",pitch_deg,heading_deg")
+    schedule = read_schedule_csv(path)
+    again = simulate(result.solved_problem, schedule, coast_to_apogee=False)
+    x_solve = np.asarray(result.trajectory.burnout_state())
+    x_file = np.asarray(again.burnout_state())
+    assert np.linalg.norm(x_file[:3] - x_solve[:3]) <= 1e-6 * np.linalg.norm(x_solve[:3])
+    assert np.linalg.norm(x_file[3:6] - x_solve[3:6]) <= 1e-6 * np.linalg.norm(x_solve[3:6])
+    assert x_file[6] == pytest.approx(x_solve[6], rel=1e-6)

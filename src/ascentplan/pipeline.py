@@ -19,6 +19,7 @@ from ascentplan.problem.model import Problem, phase_plan
 from ascentplan.problem.objectives import OBJECTIVE_SPECS, OBJECTIVE_UNITS
 from ascentplan.replay.simulate import PhaseControls, PhaseSchedule, simulate
 from ascentplan.replay.verify import Verification, verify
+from ascentplan.transcription.fallback import solve_with_fallback
 from ascentplan.transcription.guess import guess_from_solution, guess_from_trajectory, scales_for
 from ascentplan.transcription.infeasibility import Infeasibility, explain
 from ascentplan.transcription.masses import payload_is_free
@@ -347,7 +348,8 @@ def solve(problem: Problem, *, warm_start: Result | None = None,
     refinements = 0
     while True:
         nlp, _ = NLP_CACHE.get(problem, scales, nodes)
-        solution = nlp.solve(problem, guess, warm=guess.multipliers is not None)
+        solution = solve_with_fallback(nlp, problem, guess,
+                                       warm=guess.multipliers is not None)
         iterations += solution.iterations
         solved_problem = _with_solution_masses(problem, solution)
         schedule, trajectory = _replay(solved_problem, solution)

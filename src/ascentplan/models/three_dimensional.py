@@ -38,6 +38,9 @@ from ascentplan.models.dynamics import DynamicsKind, _stack
 _DEG = 180.0 / np.pi
 #: softening of norms that may vanish (zero air speed on the pad) [m/s] or [m]
 _EPS = 1e-8
+#: softening of the total angle of attack at zero [rad]: alpha reads at most this much
+#: high (at zero), and eps^2 / (2 alpha) high elsewhere (under 0.01 deg above 1.2 deg)
+_ALPHA_EPS = 2e-3
 
 
 def _frame(r):
@@ -184,8 +187,15 @@ class ThreeDimensional(DynamicsKind):
         sp = m_.sin(pitch)
         d = [sp * up[i] + ce * east[i] + cn * north[i] for i in range(3)]
         w, v = kin["air_velocity"], kin["velocity"]
-        # total angle of attack: between the thrust axis and the air-relative velocity
-        alpha = m_.atan2(m_.smooth_norm(*_cross(d, w), eps=1e-9), _dot(d, w) + 1e-9)
+        # total angle of attack: between the thrust axis and the air-relative velocity,
+        # softened at zero by _ALPHA_EPS (alpha ~ sqrt(alpha^2 + eps^2)) so that its
+        # curvature stays bounded where the optimum flies along the air (a bare norm of
+        # d x w has a kink there, which cost IPOPT an inertia correction at every
+        # iteration, measured); the softening only raises alpha, so a q-alpha limit errs
+        # on the safe side
+        w2 = _dot(w, w)
+        alpha = m_.atan2(m_.sqrt(_dot(*[_cross(d, w)] * 2) + _ALPHA_EPS ** 2 * (w2 + 1.0)),
+                         _dot(d, w))
         speed = m_.smooth_norm(*v, eps=1e-6)
         d_over_w = f["drag"] / f["relative_speed"]
         # the magnitude of the whole field (J2 included), not only its central term

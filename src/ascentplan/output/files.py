@@ -22,6 +22,8 @@ from ascentplan.replay.verify import limit_peaks
 
 #: columns of a schedule CSV, in order
 SCHEDULE_COLUMNS = ("phase", "kind", "stage", "phase_time_s", "time_s", "throttle", "pitch_deg")
+#: the column added after them when a phase steers in heading (three-dimensional flight)
+HEADING_COLUMN = "heading_deg"
 _PHASE_KINDS = ("rise", "burn", "coast")
 
 
@@ -94,7 +96,7 @@ def write_trajectory_csv(trajectory: Trajectory, path, header: list[str] | None 
     range_angle_deg, radial_speed_m_s, horizontal_speed_m_s, relative_speed_m_s,
     dynamic_pressure_Pa, mach, axial_acceleration_g0, angle_of_attack_deg,
     q_alpha_Pa_rad, thrust_N, drag_N, mass_flow_kg_s, density_kg_m3, pressure_Pa and the
-    running loss budget ideal_dv_m_s, gravity_loss_m_s, drag_loss_m_s,
+    running loss budget ideal_velocity_increment_m_s, gravity_loss_m_s, drag_loss_m_s,
     steering_loss_m_s, back_pressure_loss_m_s. Vertical: altitude_m,
     vertical_speed_m_s, mass_kg, throttle instead of the planar state and pitch, and no
     angle of attack.
@@ -375,8 +377,10 @@ def write_schedule_csv(schedule: PhaseSchedule, path, phase_plan,
     that says no verdict was given), then the columns
     ``phase,kind,stage,phase_time_s,time_s,throttle,pitch_deg``, one row per node;
     ``time_s`` is from liftoff with the scheduled durations, ``pitch_deg`` is empty
-    where the phase has no pitch. Each phase ends with a node at its duration so that
-    reading the file back gives the same durations.
+    where the phase has no pitch. When a phase steers in heading (three-dimensional
+    flight) a last column ``heading_deg`` (from north towards east) follows, empty where
+    the phase has none. Each phase ends with a node at its duration so that reading the
+    file back gives the same durations.
     """
     plan = list(phase_plan)
     if len(plan) != len(schedule.phases):
@@ -387,21 +391,28 @@ def write_schedule_csv(schedule: PhaseSchedule, path, phase_plan,
         writer = csv.writer(fh)
         for line in _default_header("schedule") if header is None else header:
             fh.write(line + "\r\n")  # the line end csv.writer uses for its rows
-        writer.writerow(SCHEDULE_COLUMNS)
+        with_heading = any(pc.heading is not None for pc in schedule.phases)
+        writer.writerow(SCHEDULE_COLUMNS + ((HEADING_COLUMN,) if with_heading else ()))
         for k, (pc, phase) in enumerate(zip(schedule.phases, plan)):
             times = pc.time
             throttle = pc.throttle
-            pitch = pc.pitch
+            pitch, heading = pc.pitch, pc.heading
             if times[-1] < pc.duration:
                 # the held last value, made explicit so the duration survives
                 times = np.append(times, pc.duration)
                 throttle = np.append(throttle, throttle[-1])
                 pitch = None if pitch is None else np.append(pitch, pitch[-1])
+                heading = None if heading is None else np.append(heading, heading[-1])
             for j, tj in enumerate(times):
-                pitch_text = "" if pitch is None else repr(float(np.degrees(pitch[j])))
-                writer.writerow([k, phase.kind, phase.stage, repr(float(tj)),
-                                 repr(float(start + tj)), repr(float(throttle[j])), pitch_text])
+                row = [k, phase.kind, phase.stage, repr(float(tj)), repr(float(start + tj)),
+                       repr(float(throttle[j])), _degrees_text(pitch, j)]
+                writer.writerow(row + ([_degrees_text(heading, j)] if with_heading else []))
             start += pc.duration
+
+
+def _degrees_text(angles, j: int) -> str:
+    """Node ``j`` of ``angles`` [rad] in degrees as written, or empty without angles."""
+    return "" if angles is None else repr(float(np.degrees(angles[j])))
 
 
 def read_schedule_csv(path) -> PhaseSchedule:
@@ -436,10 +447,12 @@ def read_schedule_csv(path) -> PhaseSchedule:
     for group in groups:
         times = np.array([g[3] for g in group])
         pitch = None if group[0][5] is None else np.radians([g[5] for g in group])
+        heading = None if group[0][6] is None else np.radians([g[6] for g in group])
         try:
             phases.append(PhaseControls(duration=float(times[-1]), time=times,
                                         throttle=np.array([g[4] for g in group]),
-                                        pitch=pitch, kind=group[0][1], stage=group[0][2],
+                                        pitch=pitch, heading=heading, kind=group[0][1],
+                                        stage=group[0][2],
                                         source_lines=tuple(g[0] for g in group)))
         except ScheduleError as exc:
             raise ScheduleFileError(f"{name} line {group[0][0]}: {exc}") from None
@@ -473,7 +486,9 @@ def _schedule_rows(name: str) -> list[tuple[int, dict]]:
         if missing:
             raise ScheduleFileError(f"{name}: missing column(s) {', '.join(missing)}; "
                                     f"expected {','.join(SCHEDULE_COLUMNS)}")
-        col = {c: header.index(c) for c in SCHEDULE_COLUMNS}
+        # heading_deg is optional: files of flight in a plane have none
+        columns = SCHEDULE_COLUMNS + ((HEADING_COLUMN,) if HEADING_COLUMN in header else ())
+        col = {c: header.index(c) for c in columns}
         rows = []
         for row in reader:
             line_no = reader.line_num
@@ -482,7 +497,9 @@ def _schedule_rows(name: str) -> list[tuple[int, dict]]:
             if len(row) < len(header):
                 raise ScheduleFileError(f"{name} line {line_no}: expected {len(header)} "
                                         f"fields, got {len(row)}")
-            rows.append((line_no, {c: row[col[c]].strip() for c in SCHEDULE_COLUMNS}))
+            cells = {c: row[col[c]].strip() for c in columns}
+            cells.setdefault(HEADING_COLUMN, "")
+            rows.append((line_no, cells))
     if not rows:
         raise ScheduleFileError(f"{name}: no schedule rows after the header")
     return rows
@@ -508,7 +525,8 @@ def _number(name, line_no, cells, column, integer=False, optional=False):
 def _schedule_node(name, line_no, cells, k, group) -> tuple:
     """One node of phase ``k``, checked against the nodes of the phase read so far.
 
-    Returns ``(line_no, kind, stage, phase_time_s, throttle, pitch_deg or None)``.
+    Returns ``(line_no, kind, stage, phase_time_s, throttle, pitch_deg or None,
+    heading_deg or None)``.
     """
     kind = cells["kind"]
     if kind not in _PHASE_KINDS:
@@ -524,6 +542,7 @@ def _schedule_node(name, line_no, cells, k, group) -> tuple:
         raise ScheduleFileError(f"{name} line {line_no}: throttle: must be >= 0, "
                                 f"got {throttle}")
     pitch = _number(name, line_no, cells, "pitch_deg", optional=True)
+    heading = _number(name, line_no, cells, HEADING_COLUMN, optional=True)
     if group:
         first_line, first_kind, first_stage = group[0][0], group[0][1], group[0][2]
         if (kind, stage) != (first_kind, first_stage):
@@ -537,7 +556,10 @@ def _schedule_node(name, line_no, cells, k, group) -> tuple:
         if (pitch is None) != (group[-1][5] is None):
             raise ScheduleFileError(f"{name} line {line_no}: pitch_deg: give it on every "
                                     f"node of phase {k} or on none")
+        if (heading is None) != (group[-1][6] is None):
+            raise ScheduleFileError(f"{name} line {line_no}: {HEADING_COLUMN}: give it on "
+                                    f"every node of phase {k} or on none")
     elif t_rel < 0:
         raise ScheduleFileError(f"{name} line {line_no}: phase_time_s: must be >= 0, "
                                 f"got {t_rel}")
-    return (line_no, kind, stage, t_rel, throttle, pitch)
+    return (line_no, kind, stage, t_rel, throttle, pitch, heading)

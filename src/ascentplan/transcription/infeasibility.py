@@ -214,9 +214,15 @@ def explain(problem: Problem, nlp, solution, iterations: int | None = None) -> I
             written, reached = targets[name]
             conditions.append(Condition(name=name, kind="target", label=label, unit=unit,
                                         value=written / factor, required=reached / factor))
-        else:
+        elif name in LIMITS:
             conditions.append(_limit_condition(problem, nlp, name, float(slack[0]),
                                                entry["phases"]))
+        else:
+            # an orbit condition (models.orbit.orbit_conditions): a residual of order one
+            # with no single element behind it, so its miss is given as that residual
+            conditions.append(Condition(name=name, kind="target",
+                                        label=name.replace("_", " ") + " (scaled residual)",
+                                        unit="-", value=0.0, required=float(np.sum(slack))))
     return Infeasibility(conditions=conditions, converged=solution.status == "optimal",
                          return_status=solution.return_status,
                          iterations=solution.iterations if iterations is None else iterations,
