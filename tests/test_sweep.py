@@ -396,3 +396,15 @@ def test_sweep_verb_runs_through_the_command_line(problem_file, tmp_path, capsys
     assert status == 0
     assert (out / "study.csv").exists() and (out / "study.jsonl").exists()
     assert "max_dynamic_pressure" in capsys.readouterr().out
+
+
+def test_problem_built_in_code_keeps_its_drag_scale_in_a_study():
+    # a problem built in code is written as a document and read back by the loader: every
+    # input survives, the drag-coefficient scale of drag trades included (common practice:
+    # a round trip through the file format loses nothing)
+    from ascentplan.problem.loader import problem_from_dict
+    from ascentplan.study.problem_file import problem_document
+
+    problem = vertical_q_problem(max_q=30e3)
+    scaled = replace(problem, aerodynamics=replace(problem.aerodynamics, drag_scale=1.1))
+    assert problem_from_dict(problem_document(scaled)).aerodynamics.drag_scale == 1.1

@@ -82,6 +82,8 @@ def _aerodynamics(problem: Problem) -> dict:
              "drag": _model(aero.drag, DRAG_MODELS, "drag")}
     if aero.reference_length is not None:
         entry["reference_length"] = aero.reference_length
+    if aero.drag_scale != 1.0:
+        entry["drag_scale"] = aero.drag_scale
     return entry
 
 
