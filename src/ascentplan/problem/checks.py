@@ -152,15 +152,16 @@ def _check_mass_split(r: _Reader, data: dict, p: _Parts) -> None:
     """A mass split that suits the objective, the target and the vehicle."""
     split = p.mass_split
     split_given = isinstance(data.get("mass_split"), dict)
-    if p.objective == "min_liftoff_mass" and (
-            not split_given or (split is not None and split.hold != "payload")):
-        r.error("objective", "min_liftoff_mass varies the stage masses with the payload held; "
-                             "expected mass_split: {hold: payload}")
+    spec = OBJECTIVE_SPECS.get(p.objective)
+    hold = spec.requires_split_hold if spec is not None else None
+    if hold is not None and (not split_given or (split is not None and split.hold != hold)):
+        r.error("objective", f"{p.objective} varies the stage masses with the {hold} held; "
+                             f"expected mass_split: {{hold: {hold}}}")
     if split is None:
         return
-    if p.objective == "max_payload" and split.hold == "payload":
+    if spec is not None and spec.payload_free and split.hold == "payload":
         r.error("mass_split.hold", "payload holds the payload fixed, which objective "
-                                   "max_payload varies; expected hold: liftoff_mass")
+                                   f"{p.objective} varies; expected hold: liftoff_mass")
     if split.hold == "payload" and p.target is not None and p.target.is_empty():
         r.error("mass_split.hold", "payload minimises the liftoff mass that reaches the "
                                    "target; expected a target section")

@@ -64,6 +64,12 @@ class ObjectiveSpec:
         Target keys that would fix the optimised quantity (the loader refuses the pair).
     final_coast : bool
         The phase plan adds a coast to apogee after burnout.
+    payload_free : bool
+        The optimiser chooses the payload mass (a decision variable, not an input); a
+        stage-mass split may then not hold the payload.
+    requires_split_hold : str or None
+        The ``mass_split.hold`` the objective only makes sense with (the loader requires a
+        mass split holding that), or None.
     """
 
     name: str
@@ -76,6 +82,8 @@ class ObjectiveSpec:
     needs_target: bool = False
     fixed_by: tuple = ()
     final_coast: bool = False
+    payload_free: bool = False
+    requires_split_hold: str | None = None
 
     @property
     def maximise(self) -> bool:
@@ -93,12 +101,14 @@ OBJECTIVE_SPECS: dict[str, ObjectiveSpec] = {spec.name: spec for spec in (
                   +1, "km", 1000.0, lambda o: o.apogee_altitude, "altitude",
                   fixed_by=("circular_orbit_altitude",), final_coast=True),
     ObjectiveSpec("max_payload", "maximise payload mass delivered to the target",
-                  +1, "kg", 1.0, lambda o: o.payload_mass, "mass", needs_target=True),
+                  +1, "kg", 1.0, lambda o: o.payload_mass, "mass", needs_target=True,
+                  payload_free=True),
     ObjectiveSpec("min_propellant", "minimise propellant used to reach the target",
                   -1, "kg", 1.0, lambda o: o.propellant_used, "mass", needs_target=True),
     ObjectiveSpec("min_liftoff_mass",
                   "minimise liftoff mass that reaches the target (stage-mass split, payload "
-                  "held)", -1, "kg", 1.0, lambda o: o.liftoff_mass, "mass", needs_target=True),
+                  "held)", -1, "kg", 1.0, lambda o: o.liftoff_mass, "mass", needs_target=True,
+                  requires_split_hold="payload"),
 )}
 
 #: one-line description of each objective by name (what the loader validates against)

@@ -15,6 +15,7 @@ from dataclasses import dataclass, replace
 import casadi as ca
 
 from ascentplan.problem.model import Problem, dry_mass_from_ratio, stack_masses, thrust_from_ratio
+from ascentplan.problem.objectives import OBJECTIVE_SPECS
 
 #: bounds of the one factor on all propellant masses of a proportional split
 _SPLIT_SCALE = (0.05, 20.0)
@@ -49,7 +50,7 @@ class StackMasses:
 
 def payload_is_free(problem: Problem) -> bool:
     """Whether the optimiser chooses the payload mass (the objective maximises it)."""
-    return problem.objective == "max_payload"
+    return OBJECTIVE_SPECS[problem.objective].payload_free
 
 
 def vehicle_parameter_sizes(problem: Problem) -> list[tuple[str, int]]:
