@@ -333,12 +333,17 @@ def _study_section(data):
     for workers, runs in data["runs"].items():
         for r in runs:
             rows.append([workers, _f(r.get("wall_time_s")), r.get("optimal"),
-                         r.get("warm_started"), r.get("points_per_worker"),
-                         r.get("solve_time_per_worker_s"), r.get("load_average_after")])
+                         r.get("warm_started"),
+                         *(", ".join(map(str, r.get(k) or [])) for k in (
+                             "points_per_worker", "solve_time_per_worker_s",
+                             "load_average_after"))])
     lines += _table(["workers", "wall time [s]", "optimal", "warm-started",
                      "points per worker", "point time per worker [s]", "load after"], rows)
-    lines += ["", f"Speed-up of 2 workers over 1 (median wall times): "
-                  f"{data['speedup_2_over_1']:.2f}x", ""]
+    lines += ["", f"Speed-up of 2 workers over 1: {data['speedup_2_over_1']:.2f}x of the "
+                  f"median wall times, {data.get('fastest_speedup_2_over_1', float('nan')):.2f}x"
+                  f" of the fastest runs. Two processes of a CPU-bound loop got "
+                  f"{data.get('median_two_process_capacity', float('nan')):.2f} times the "
+                  f"CPU of one at the time (the most any two-worker run could gain).", ""]
     return lines + _goal_lines(data.get("goals", []))
 
 
