@@ -323,6 +323,25 @@ def _exchange_section(data):
     return lines + [""] + _goal_lines(data.get("goals", []))
 
 
+def _three_dimensional_section(data):
+    lines = ["## Three-dimensional transfer-orbit example against mesh size", "",
+             f"Regenerate: `{data['command']}`", ""] + _machine_lines(data)
+    lines += ["One cold `solve()` per point in a fresh interpreter (imports excluded), no mesh "
+              "refinement, on problems/medium_launcher_transfer.yaml; IPOPT's counters summed "
+              "over the solves of the point (a failed first try and its fallback included).",
+              ""]
+    lines += _table(["nodes", "variables", "status", "iterations", "payload [kg]",
+                     "wall [s]", "CPU [s]", "build [s]", "IPOPT [s]", "Hessian [s]",
+                     "Jacobian [s]"],
+                    [[r["nodes"], r.get("variables", "-"), r.get("status", r.get("error")),
+                      r.get("iterations", "-"), r.get("objective_kg", "-"),
+                      r.get("wall_time_s", "-"), r.get("cpu_time_s", "-"),
+                      r.get("build_s", "-"), r.get("t_wall_total", "-"),
+                      r.get("t_wall_nlp_hess_l", "-"), r.get("t_wall_nlp_jac_g", "-")]
+                     for r in data["points"]])
+    return lines + [""] + _goal_lines(data.get("goals", []))
+
+
 def _study_section(data):
     lines = ["## Trade study on one and two workers", "",
              "Regenerate: `python tests/benchmarks/bench_study.py`", ""] + _machine_lines(data)
@@ -364,6 +383,7 @@ def _outputs_section(data):
 _SECTIONS = (("examples.json", _examples_section), ("scaling.json", _scaling_section),
              ("baseline.json", _baseline_section), ("split.json", _split_section),
              ("memory.json", _memory_section), ("exchange.json", _exchange_section),
+             ("3d.json", _three_dimensional_section),
              ("study.json", _study_section), ("outputs.json", _outputs_section))
 
 
