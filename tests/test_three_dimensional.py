@@ -276,3 +276,21 @@ def test_written_schedule_flies_back_the_same_three_dimensional_flight(tmp_path)
     assert np.linalg.norm(x_file[:3] - x_solve[:3]) <= 1e-6 * np.linalg.norm(x_solve[:3])
     assert np.linalg.norm(x_file[3:6] - x_solve[3:6]) <= 1e-6 * np.linalg.norm(x_solve[3:6])
     assert x_file[6] == pytest.approx(x_solve[6], rel=1e-6)
+
+
+def test_circular_orbit_over_the_ellipsoid_is_verified_at_its_radius():
+    """A circular-orbit altitude is above the equatorial radius (the orbit catalogues'
+    convention, which the NLP's condition uses); off the equator of the WGS 84 ellipsoid
+    the geodetic altitude of the same point is up to 21 km higher (a - b = 21.4 km, NIMA
+    TR8350.2), so verification must read the radius too, or a met target would fail."""
+    doc = _document(**{"launch.latitude": "45 deg"})
+    doc["planet"] = "earth"
+    doc["target"] = {"circular_orbit_altitude": "200 km", "inclination": "50 deg"}
+    doc["mesh"] = {"nodes_per_phase": 10, "max_refinements": 1}
+    result = solve(problem_from_dict(doc))
+    assert result.status == "optimal", result.message
+    check = next(c for c in result.verification.target_miss.checks if c.name == "altitude")
+    xb = np.asarray(result.trajectory.burnout_state())
+    radius_altitude = float(np.linalg.norm(xb[:3])) - result.problem.planet.radius
+    assert check.replayed == pytest.approx(radius_altitude, abs=1e-6)
+    assert abs(radius_altitude - 200e3) <= 100.0

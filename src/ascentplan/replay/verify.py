@@ -226,6 +226,10 @@ def target_miss(problem: Problem, state) -> TargetMiss:
                                           float(kind.horizontal_speed(x)), planet)
         orbit = {"altitude_m": float(target.circular_orbit_altitude),
                  "perigee_altitude_m": perigee, "apogee_altitude_m": apogee}
+        # an orbit's altitude is above the equatorial radius, as the NLP's condition
+        # reads it, not geodetic (they differ by up to 21 km off the equator of an
+        # ellipsoid; on a sphere they are the same)
+        h = float(kind.radius(x, planet)) - planet.radius
     checks = []
     if written["altitude"] is not None:
         checks.append(TargetCheck("altitude", "m", written["altitude"], h, max(
