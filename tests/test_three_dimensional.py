@@ -289,7 +289,8 @@ def test_circular_orbit_over_the_ellipsoid_is_verified_at_its_radius():
     doc["mesh"] = {"nodes_per_phase": 10, "max_refinements": 1}
     result = solve(problem_from_dict(doc))
     assert result.status == "optimal", result.message
-    check = next(c for c in result.verification.target_miss.checks if c.name == "altitude")
+    check = next(c for c in result.verification.target_miss.conditions
+                 if c.name == "altitude")
     xb = np.asarray(result.trajectory.burnout_state())
     radius_altitude = float(np.linalg.norm(xb[:3])) - result.problem.planet.radius
     assert check.replayed == pytest.approx(radius_altitude, abs=1e-6)
