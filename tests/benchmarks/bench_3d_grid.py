@@ -3,6 +3,8 @@ the three-dimensional transfer-orbit example's vehicle reaches, optimal and veri
 from the problem file alone (no hand-made guess), on a coarse mesh.
 
     python tests/benchmarks/bench_3d_grid.py [--quick] [--nodes N]
+    python tests/benchmarks/bench_3d_grid.py --plot   # payload against inclination
+
 
 Grid: low circular (200 km), higher circular (800 km) and the 200 x 35,786 km transfer
 orbit; inclinations from just above the site latitude (38.6 deg N) to polar and
@@ -46,8 +48,39 @@ def _point(orbit: str, inclination: float, direction: str, nodes: int) -> None:
                 "wall_time_s": time.perf_counter() - wall})
 
 
+def plot_payload(path=None) -> None:
+    """Payload against inclination per orbit and azimuth branch, from 3d_grid.json (the
+    study of the grid's optimal points), written beside it as 3d_payload_inclination.png."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+    from _common import RESULTS
+
+    path = RESULTS / "3d_grid.json" if path is None else path
+    data = json.loads(path.read_text())
+    fig, ax = plt.subplots(figsize=(7.0, 4.5))
+    for orbit, direction in itertools.product(ORBITS, DIRECTIONS):
+        rows = [r for r in data["points"] if r["orbit"] == orbit
+                and r["direction"] == direction and r.get("status") == "optimal"]
+        ax.plot([r["inclination_deg"] for r in rows], [r["payload_kg"] / 1e3 for r in rows],
+                "o-" if direction == "northerly" else "s--",
+                label=f"{orbit.replace('_', ' ')}, {direction}")
+    ax.set_xlabel("inclination [deg]")
+    ax.set_ylabel("payload [t]")
+    ax.set_title(f"{data['problem']}: payload against inclination (site 38.6 deg N, "
+                 f"{data['nodes_per_phase']} nodes per phase)", fontsize=9)
+    ax.grid(True, alpha=0.3)
+    ax.legend(fontsize=7)
+    fig.tight_layout()
+    fig.savefig(path.with_name("3d_payload_inclination.png"), dpi=100)
+
+
 def main(argv=None) -> int:
     argv = sys.argv[1:] if argv is None else argv
+    if argv and argv[0] == "--plot":
+        plot_payload()
+        return 0
     if argv and argv[0] == "--point":
         _point(argv[1], float(argv[2]), argv[3], int(argv[4]))
         return 0
