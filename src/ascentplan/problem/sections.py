@@ -16,13 +16,6 @@ from ascentplan.constants import PLANETS
 from ascentplan.models import aero, atmosphere, gravity
 from ascentplan.models.dynamics import DYNAMICS, DynamicsKind
 from ascentplan.problem.limits import LIMITS
-from ascentplan.problem.orbit_sections import (
-    _read_launch_spatial,
-    _read_orbit_target,
-    _refuse_gravity_without_position,
-    _refused_for_kind,
-    _steered,
-)
 from ascentplan.problem.model import (
     SCHEMES,
     Aerodynamics,
@@ -33,6 +26,13 @@ from ascentplan.problem.model import (
     Planet,
     Target,
     TimeSchedule,
+)
+from ascentplan.problem.orbit_sections import (
+    _read_launch_spatial,
+    _read_orbit_target,
+    _refuse_gravity_without_position,
+    _refused_for_kind,
+    _steered,
 )
 from ascentplan.problem.reader import (
     _did_you_mean,
