@@ -48,7 +48,7 @@ def test_trajectory_frame_equals_the_csv_file(flight, tmp_path):
     assert frame["phase_kind"].tolist() == kinds
     assert set(frame["stage"]) <= set(range(len(problem.vehicle.stages)))
     # unit-named columns, as the CSV names them
-    assert {"time_s", "altitude_m", "dynamic_pressure_Pa", "axial_acceleration_g0",
+    assert {"time_s", "altitude_m", "dynamic_pressure_kPa", "axial_acceleration_g0",
             "mass_kg", "throttle"} <= set(frame.columns)
 
 

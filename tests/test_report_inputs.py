@@ -194,7 +194,7 @@ def test_csv_files_open_with_their_caution(solved, name):
         rows = [row for row in csv.reader(fh) if not row[0].startswith("#")]
     plain = {"phase", "kind", "stage", "throttle", "mach"}
     units = ("_s", "_m", "_m_s", "_kg", "_N", "_Pa", "_deg", "_g0", "_kg_s", "_kg_m3",
-             "_Pa_rad")
+             "_kPa", "_kPa_deg")
     assert all(c in plain or c.endswith(units) for c in rows[0]), rows[0]
     assert len(rows) > 2
     # numpy reads the data once the comment lines are skipped by its own rule

@@ -384,8 +384,8 @@ def test_schedule_csv_round_trip_and_errors(tmp_path):
     # comment lines ("# ", common practice) open the file, then the column names
     lines = (out / "trajectory.csv").read_text().splitlines()
     header = next(line for line in lines if not line.startswith("#")).split(",")
-    for column in ("time_s", "altitude_m", "speed_m_s", "dynamic_pressure_Pa",
-                   "axial_acceleration_g0", "q_alpha_Pa_rad", "pitch_deg"):
+    for column in ("time_s", "altitude_m", "speed_m_s", "dynamic_pressure_kPa",
+                   "axial_acceleration_g0", "q_alpha_kPa_deg", "pitch_deg"):
         assert column in header
 
 

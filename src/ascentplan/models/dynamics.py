@@ -356,7 +356,7 @@ class Planar(DynamicsKind):
     )
     extra_trajectory_columns: ClassVar[tuple] = (
         ("angle_of_attack_deg", "quantity", "angle_of_attack", _DEG),
-        ("q_alpha_Pa_rad", "quantity", "q_alpha", 1.0),
+        ("q_alpha_kPa_deg", "quantity", "q_alpha", _DEG / 1000.0),
     )
 
     def radius(self, x, planet):

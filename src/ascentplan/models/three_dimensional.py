@@ -100,7 +100,7 @@ class ThreeDimensional(DynamicsKind):
     )
     extra_trajectory_columns: ClassVar[tuple] = (
         ("angle_of_attack_deg", "quantity", "angle_of_attack", _DEG),
-        ("q_alpha_Pa_rad", "quantity", "q_alpha", 1.0),
+        ("q_alpha_kPa_deg", "quantity", "q_alpha", _DEG / 1000.0),
     )
 
     # -- vectors ----------------------------------------------------------------------

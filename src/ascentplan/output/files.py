@@ -32,8 +32,8 @@ _PHASE_KINDS = ("rise", "burn", "coast")
 COMMENT = "#"
 
 #: what every column name of the CSV files says, for the comment header
-_UNITS_NOTE = ("units: each column's unit ends its name (_s, _m, _m_s, _kg, _N, _Pa, "
-               "_deg, _g0, _kg_s, _kg_m3, _Pa_rad); phase, stage and mach are plain "
+_UNITS_NOTE = ("units: each column's unit ends its name (_s, _m, _m_s, _kg, _N, _Pa, _kPa, "
+               "_deg, _g0, _kg_s, _kg_m3, _kPa_deg); phase, stage and mach are plain "
                "numbers, throttle a fraction of full mass flow; pitch from the local "
                "horizontal")
 
@@ -94,8 +94,8 @@ def write_trajectory_csv(trajectory: Trajectory, path, header: list[str] | None 
     Columns (planar): time_s, phase, altitude_m, speed_m_s (inertial),
     flight_path_angle_deg (inertial), mass_kg, throttle, pitch_deg, radius_m,
     range_angle_deg, radial_speed_m_s, horizontal_speed_m_s, relative_speed_m_s,
-    dynamic_pressure_Pa, mach, axial_acceleration_g0, angle_of_attack_deg,
-    q_alpha_Pa_rad, thrust_N, drag_N, mass_flow_kg_s, density_kg_m3, pressure_Pa and the
+    dynamic_pressure_kPa, mach, axial_acceleration_g0, angle_of_attack_deg,
+    q_alpha_kPa_deg, thrust_N, drag_N, mass_flow_kg_s, density_kg_m3, pressure_Pa and the
     running loss budget ideal_velocity_increment_m_s, gravity_loss_m_s, drag_loss_m_s,
     steering_loss_m_s, back_pressure_loss_m_s. Vertical: altitude_m,
     vertical_speed_m_s, mass_kg, throttle instead of the planar state and pitch, and no

@@ -113,9 +113,9 @@ class Trajectory:
         The columns of ``trajectory.csv`` in its order: time_s, phase, the kind's state
         and control columns (planar: altitude_m, speed_m_s, flight_path_angle_deg,
         mass_kg, throttle, pitch_deg, radius_m, range_angle_deg, radial_speed_m_s,
-        horizontal_speed_m_s), relative_speed_m_s, dynamic_pressure_Pa, mach,
+        horizontal_speed_m_s), relative_speed_m_s, dynamic_pressure_kPa, mach,
         axial_acceleration_g0, the kind's extra columns (planar: angle_of_attack_deg,
-        q_alpha_Pa_rad), thrust_N, drag_N, mass_flow_kg_s, density_kg_m3, pressure_Pa and
+        q_alpha_kPa_deg), thrust_N, drag_N, mass_flow_kg_s, density_kg_m3, pressure_Pa and
         the running loss budget (ideal_velocity_increment_m_s, gravity_loss_m_s, ...) [m s^-1].
         """
         q = self.quantities
@@ -134,7 +134,7 @@ class Trajectory:
         cols = [("time_s", self.time), ("phase", self.phase.astype(float))]
         cols += [values(spec) for spec in kind.trajectory_columns]
         cols += [("relative_speed_m_s", q["relative_speed"]),
-                 ("dynamic_pressure_Pa", q["dynamic_pressure"]), ("mach", q["mach"]),
+                 ("dynamic_pressure_kPa", q["dynamic_pressure"] / 1000.0), ("mach", q["mach"]),
                  ("axial_acceleration_g0", q["axial_acceleration"])]
         cols += [values(spec) for spec in kind.extra_trajectory_columns]
         cols += [("thrust_N", q["thrust"]), ("drag_N", q["drag"]),
