@@ -132,3 +132,17 @@ def test_split_verb_prints_the_rocket_equation_split(capsys):
     total = split_for_vehicle(load(PROBLEMS / "medium_launcher.yaml").vehicle).total_delta_v
     assert f"{total:.1f} m/s" in out
     assert main(["split", str(PROBLEMS / "medium_launcher.yaml"), "--delta-v", "9000"]) == 2
+
+
+def test_split_map_zero_switches_off_the_map_the_file_asks_for(tmp_path):
+    # a command-line option overrides the file, 0 included (common practice)
+    text = (PROBLEMS / "small_launcher_split.yaml").read_text(encoding="utf-8")
+    assert "map_points: 9" in text
+    text = "\n".join(line for line in text.split("\n") if not line.startswith("mesh:"))
+    path = tmp_path / "split.yaml"
+    path.write_text(text + "\nmesh: {nodes_per_phase: 12, max_refinements: 0}\n",
+                    encoding="utf-8")
+    out = tmp_path / "out"
+    status = main(["solve", str(path), "--out", str(out), "--split-map", "0"])
+    assert status in (0, 1)
+    assert (out / "summary.json").exists() and not (out / "split_map.png").exists()

@@ -5,8 +5,7 @@ stderr per problem, never a traceback (common practice for command-line tools):
 
 * 0 success; 1, 3 and 4 the verbs' own outcomes (a flight that impacts, an infeasible
   or failed solve, a flight beyond its limits);
-* 2 bad input: a problem file, a schedule file, an argument or a results folder that
-  cannot be used;
+* 2 bad input: a problem file, schedule file, argument or unusable results folder;
 * 70 an internal error (``EX_SOFTWARE`` of BSD ``sysexits.h``): a fault of the tool,
   shown as one line; ``--debug`` or ``ASCENTPLAN_DEBUG=1`` shows its traceback;
 * 130 interrupted (Ctrl-C; 128 + SIGINT as a shell reports it);
@@ -260,7 +259,8 @@ def _cmd_solve(args) -> int:
     out = _results_folder(problem, args.out)
     _make_folder(out)
     if problem.mass_split is not None:
-        points = args.split_map or problem.mass_split.map_points or None
+        chosen = problem.mass_split.map_points if args.split_map is None else args.split_map
+        points = chosen or None  # --split-map 0 switches off a map the file asks for
         result = solve_with_split_comparison(problem, map_points=points, out_dir=out)
     else:
         result = solve(problem)
@@ -280,11 +280,11 @@ def _add_solve(subparsers) -> None:
     p.add_argument("file", metavar="FILE", type=_path_argument, help="YAML problem file")
     p.add_argument("--out", metavar="DIR", default=None, type=_path_argument,
                    help="results folder (default: results/<problem name>/)")
-    p.add_argument("--split-map", type=int, default=0, metavar="N",
+    p.add_argument("--split-map", type=int, default=None, metavar="N",
                    help="with a stage-mass split held at its liftoff mass: also map the "
                         "objective over the split around the optimum, N points per axis "
                         "(warm-started re-solves; written to split_map.png); overrides "
-                        "mass_split.map_points")
+                        "mass_split.map_points, 0 for no map")
     p.set_defaults(handler=_cmd_solve)
 
 
