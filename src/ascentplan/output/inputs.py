@@ -80,6 +80,8 @@ def _stage_record(vehicle: Vehicle, i: int) -> dict:
         "throttle_min": float(s.throttle_min),
         "throttle_max": float(s.throttle_max),
         "max_throttle_rate_1_s": _optional(s.max_throttle_rate),
+        "max_steering_rate_deg_s": (None if s.max_steering_rate is None
+                                    else math.degrees(s.max_steering_rate)),
         "shutdown": "early" if s.may_shut_down_early else "at_depletion",
         "propellant_reserve_kg": float(s.reserve_mass),
         "structural_ratio": float(s.ratio_of_structure),

@@ -83,6 +83,9 @@ class Stage:
         full-thrust engine.
     max_throttle_rate : float or None
         Largest |d throttle/dt| [s^-1], or None for no limit.
+    max_steering_rate : float or None
+        Largest turning rate of the thrust direction in the local horizon frame (pitch and,
+        in three dimensions, heading) during a burn [rad s^-1], or None for no limit.
     coast_after : float
         Unpowered coast after this stage is dropped and before the next ignites [s].
     structural_ratio : float or None
@@ -112,6 +115,7 @@ class Stage:
     throttle_min: float = 1.0
     throttle_max: float = 1.0
     max_throttle_rate: float | None = None
+    max_steering_rate: float | None = None
     coast_after: float = 0.0
     structural_ratio: float | None = None
     propellant_min: float | None = None

@@ -24,14 +24,14 @@ from ascentplan.problem.units import UnitError, show, to_si
 _VEHICLE_KEYS = ("payload_mass", "stages")
 _STAGE_KEYS = ("name", "propellant_mass", "dry_mass", "structural_ratio", "thrust_vacuum",
                "thrust_to_weight", "isp_vacuum", "exhaust_speed", "nozzle_exit_area",
-               "throttle", "max_throttle_rate", "coast_after", "propellant_min",
-               "propellant_max", "shutdown", "propellant_reserve")
+               "throttle", "max_throttle_rate", "max_steering_rate", "coast_after",
+               "propellant_min", "propellant_max", "shutdown", "propellant_reserve")
 _THROTTLE_KEYS = ("min", "max")
 #: the fields of a stage as read, passed on to :class:`Stage` unchanged
 _STAGE_FIELDS = ("name", "propellant_mass", "dry_mass", "thrust_vacuum", "exhaust_speed",
                  "nozzle_exit_area", "throttle_min", "throttle_max", "max_throttle_rate",
-                 "coast_after", "structural_ratio", "propellant_min", "propellant_max",
-                 "thrust_to_weight", "shutdown", "propellant_reserve",
+                 "max_steering_rate", "coast_after", "structural_ratio", "propellant_min",
+                 "propellant_max", "thrust_to_weight", "shutdown", "propellant_reserve",
                  "propellant_reserve_fraction")
 #: a thrust given both directly and as thrust-to-weight must agree to this fraction
 _THRUST_AGREEMENT = 0.005
@@ -146,7 +146,9 @@ def _read_throttle(r: _Reader, raw: dict, path: str) -> dict:
         r.error(tpath, f"min must not exceed max, got min {show(throttle['min'])} > max "
                        f"{show(throttle.get('max', 1.0))}")
     rate = r.quantity(raw, "max_throttle_rate", path, "1/s", gt=0.0)
-    return {"throttle_min": tmin, "throttle_max": tmax, "max_throttle_rate": rate}
+    steering = r.quantity(raw, "max_steering_rate", path, "rad/s", gt=0.0, show_unit="deg/s")
+    return {"throttle_min": tmin, "throttle_max": tmax, "max_throttle_rate": rate,
+            "max_steering_rate": steering}
 
 
 def _read_propellant_range(r: _Reader, raw: dict, path: str,

@@ -68,8 +68,8 @@ def _stage(stage: Stage) -> dict:
         entry["thrust_vacuum"] = stage.thrust_vacuum
     entry["exhaust_speed"] = stage.exhaust_speed
     entry["throttle"] = {"min": stage.throttle_min, "max": stage.throttle_max}
-    for name in ("nozzle_exit_area", "max_throttle_rate", "coast_after", "propellant_min",
-                 "propellant_max", "shutdown", "propellant_reserve"):
+    for name in ("nozzle_exit_area", "max_throttle_rate", "max_steering_rate", "coast_after",
+                 "propellant_min", "propellant_max", "shutdown", "propellant_reserve"):
         value = getattr(stage, name, None)
         if value:
             entry[name] = value

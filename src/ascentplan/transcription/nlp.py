@@ -29,6 +29,7 @@ from ascentplan.models import dynamics
 from ascentplan.problem.model import Problem, phase_plan
 from ascentplan.problem.objectives import OBJECTIVE_SPECS, Outcome
 from ascentplan.transcription.collocation import COLLOCATION_SCHEMES
+from ascentplan.transcription.control_rates import steering_rate_rows
 from ascentplan.transcription.elastic import OBJECTIVE_WEIGHT, HardRows, SoftRows
 from ascentplan.transcription.layout import ConstraintRows, ParameterLayout, VariableLayout
 from ascentplan.transcription.masses import (
@@ -104,7 +105,7 @@ EXPANSION_SAVING_FRACTION = 0.5
 def structure_key(problem: Problem) -> tuple:
     """What fixes the NLP's structure: everything that is not an NLP parameter."""
     stages = tuple(
-        (s.throttle_min, s.throttle_max, s.max_throttle_rate, s.coast_after,
+        (s.throttle_min, s.throttle_max, s.max_throttle_rate, s.max_steering_rate, s.coast_after,
          s.structural_ratio, s.thrust_to_weight is not None, s.propellant_min,
          s.propellant_max, s.may_shut_down_early)
         for s in problem.vehicle.stages)
@@ -294,14 +295,17 @@ class AscentNLP:
         return bound * (1.0 - margin)
 
     def _add_throttle_rate(self, j: int, stage, U, h) -> None:
-        """The stage's throttle-rate limit on a powered phase, linear in the variables."""
+        """The stage's throttle-rate limit on a powered phase, linear in the variables, and
+        its steering-rate limit on a burn (the vertical rise holds the pitch fixed)."""
         rate = stage.max_throttle_rate
-        if rate is None or not self.phases[j].powered:
-            return
-        k = self.kind.control_index("throttle")
-        du = U[k, 1:] - U[k, :-1]
-        self.rows.add(f"throttle_rate{j}", du - rate * h, -np.inf, 0.0)
-        self.rows.add(f"throttle_rate{j}", du + rate * h, 0.0, np.inf)
+        if rate is not None and self.phases[j].powered:
+            k = self.kind.control_index("throttle")
+            du = U[k, 1:] - U[k, :-1]
+            self.rows.add(f"throttle_rate{j}", du - rate * h, -np.inf, 0.0)
+            self.rows.add(f"throttle_rate{j}", du + rate * h, 0.0, np.inf)
+        turning = stage.max_steering_rate
+        if turning is not None and self.kind.steered and self.phases[j].kind == "burn":
+            self.rows.add(f"steering_rate{j}", *steering_rate_rows(self.kind, U, h, turning))
 
     def _link(self, j: int, masses: StackMasses) -> None:
         """Phase ``j`` starts where the previous ended, or at the pad with the liftoff mass.
