@@ -13,6 +13,7 @@ dOmega/dt = -3/2 n J2 (R/p)^2 cos i); spherical trigonometry of the launch azimu
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 
 import numpy as np
 import pytest
@@ -295,3 +296,39 @@ def test_circular_orbit_over_the_ellipsoid_is_verified_at_its_radius():
     radius_altitude = float(np.linalg.norm(xb[:3])) - result.problem.planet.radius
     assert check.replayed == pytest.approx(radius_altitude, abs=1e-6)
     assert abs(radius_altitude - 200e3) <= 100.0
+
+
+def test_steering_rate_limit_bounds_the_turn_of_pitch_and_heading_together():
+    """max_steering_rate bounds the angle between neighbouring nodes' thrust directions
+    (pitch and heading, spherical law of cosines) divided by the interval, so the
+    combined turning rate of the flown schedule stays below it (common practice)."""
+    free = solve(_coarse("polar"))
+    assert free.status == "optimal", free.message
+    turning = _fastest_turn(free)
+    limit = 0.6 * turning
+    problem = _coarse("polar")
+    stages = tuple(replace(s, max_steering_rate=limit) for s in problem.vehicle.stages)
+    result = solve(replace(problem, vehicle=replace(problem.vehicle, stages=stages)))
+    assert result.status == "optimal", result.message
+    assert _fastest_turn(result) <= limit * (1 + 1e-5)
+    assert result.objective_value <= free.objective_value + 1e-6
+
+
+def _fastest_turn(result) -> float:
+    """Largest turning rate of the thrust direction between neighbouring nodes of the
+    burns [rad/s], from the optimiser's node controls (what the replay flies)."""
+    from ascentplan.models.dynamics import dynamics_kind
+    from ascentplan.problem.model import phase_plan
+
+    kind = dynamics_kind(result.problem.dynamics)
+    fastest = 0.0
+    for ph, t, u in zip(phase_plan(result.problem), result.solution.times,
+                        result.solution.controls):
+        if ph.kind != "burn":
+            continue
+        p, h = u[kind.control_index("pitch")], u[kind.control_index("heading")]
+        cos_angle = (np.sin(p[:-1]) * np.sin(p[1:])
+                     + np.cos(p[:-1]) * np.cos(p[1:]) * np.cos(np.diff(h)))
+        angle = np.arccos(np.clip(cos_angle, -1.0, 1.0))
+        fastest = max(fastest, float(np.max(angle / np.diff(t))))
+    return fastest
