@@ -18,11 +18,11 @@ from ascentplan.exchange import exchange_ratios
 from ascentplan.models.aero import ConstantDrag
 from ascentplan.models.atmosphere import Vacuum
 from ascentplan.models.gravity import ConstantGravity
+from ascentplan.optimisation.nlp import structure_key
 from ascentplan.pipeline import format_result, solve
 from ascentplan.problem.loader import problem_from_dict
 from ascentplan.problem.model import Aerodynamics, Mesh, Planet, Problem, Stage, Target, Vehicle
 from ascentplan.study.document import apply_changes
-from ascentplan.transcription.nlp import structure_key
 
 #: an invented two-stage vertical rocket with drag, back-pressure loss and an active
 #: max-q limit; its first stage's thrust is written as a thrust-to-weight ratio and its

@@ -70,8 +70,8 @@ def test_relaxing_never_lowers_the_optimum(free_result, limited_result):
 def test_expanded_derivatives_give_the_same_optimum(limited_result):
     # the SX-expanded Hessian and Jacobian are the same functions as the MX ones
     # (CasADi's expansion), so a re-solve lands on the same optimum to solver tolerance
+    from ascentplan.optimisation.nlp import AscentNLP
     from ascentplan.pipeline import first_guess
-    from ascentplan.transcription.nlp import AscentNLP
 
     problem = vertical_q_problem(max_q=Q_MAX)
     guess, scales = first_guess(problem, problem.mesh.nodes_per_phase)

@@ -7,8 +7,8 @@ import numpy as np
 import pytest
 from cases import flat_vacuum_problem
 
+from ascentplan.optimisation.collocation import COLLOCATION_SCHEMES
 from ascentplan.pipeline import solve
-from ascentplan.transcription.collocation import COLLOCATION_SCHEMES
 
 
 def test_scheme_tableaux():

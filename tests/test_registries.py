@@ -1,9 +1,9 @@
 """The name lists that problem files are validated against match what the code implements."""
 
+from ascentplan.optimisation.collocation import COLLOCATION_SCHEMES
 from ascentplan.pipeline import OBJECTIVE_UNITS
 from ascentplan.problem.limits import LIMITS
 from ascentplan.problem.model import LIMIT_UNITS, OBJECTIVES, SCHEMES, Limits
-from ascentplan.transcription.collocation import COLLOCATION_SCHEMES
 
 
 def test_schemes_match_the_collocation_classes():

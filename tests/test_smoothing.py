@@ -15,6 +15,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from ascentplan.optimisation.smoothing import control_smoothness
 from ascentplan.pipeline import solve
 from ascentplan.problem.loader import (
     ProblemError,
@@ -23,7 +24,6 @@ from ascentplan.problem.loader import (
     read_problem_file,
 )
 from ascentplan.problem.objectives import OBJECTIVE_SPECS
-from ascentplan.transcription.smoothing import control_smoothness
 
 PROBLEMS = Path(__file__).resolve().parent.parent / "problems"
 WEIGHT = 1e-4

@@ -11,16 +11,16 @@ from types import SimpleNamespace
 import pytest
 from cases import vertical_q_problem
 
+from ascentplan.optimisation.nlp import (
+    EXPANSION_COST_ITERATIONS,
+    EXPANSION_SAVING_FRACTION,
+    AscentNLP,
+)
 from ascentplan.pipeline import NLP_CACHE, solve
 from ascentplan.study.files import file_digest
 from ascentplan.study.progress import Progress
 from ascentplan.study.runner import MAX_CHUNK, chunk_points
 from ascentplan.study.worker import solve_points
-from ascentplan.transcription.nlp import (
-    EXPANSION_COST_ITERATIONS,
-    EXPANSION_SAVING_FRACTION,
-    AscentNLP,
-)
 
 # the single-stage throttleable rocket of cases.vertical_q_problem as a file (a study sends
 # its workers a path), on a coarse mesh

@@ -193,7 +193,7 @@ def exchange_inputs(problem: Problem, sensitivities: dict) -> list[ExchangeInput
     Returns the inputs in a fixed order: payload, then per stage its masses, thrust, Isp
     and nozzle exit area, then the held liftoff mass and the drag scale.
     """
-    from ascentplan.transcription.masses import payload_is_free
+    from ascentplan.optimisation.masses import payload_is_free
 
     out = _stage_inputs(problem, sensitivities)
     split = problem.mass_split

@@ -14,17 +14,17 @@ import numpy as np
 from ascentplan.cautions import CAUTION
 from ascentplan.exchange import exchange_lines, exchange_ratios
 from ascentplan.models.dynamics import altitude_speed_fpa, dynamics_kind
+from ascentplan.optimisation.fallback import solve_with_fallback
+from ascentplan.optimisation.guess import guess_from_solution, guess_from_trajectory, scales_for
+from ascentplan.optimisation.infeasibility import Infeasibility, explain
+from ascentplan.optimisation.masses import payload_is_free
+from ascentplan.optimisation.nlp import AscentNLP, NLPSolution, structure_key
+from ascentplan.optimisation.propellant import propellant_accounting, residual_text
 from ascentplan.problem.limits import LIMITS
 from ascentplan.problem.model import Problem, phase_plan
 from ascentplan.problem.objectives import OBJECTIVE_SPECS, OBJECTIVE_UNITS
 from ascentplan.replay.simulate import PhaseControls, PhaseSchedule, simulate
 from ascentplan.replay.verify import Verification, verify
-from ascentplan.transcription.fallback import solve_with_fallback
-from ascentplan.transcription.guess import guess_from_solution, guess_from_trajectory, scales_for
-from ascentplan.transcription.infeasibility import Infeasibility, explain
-from ascentplan.transcription.masses import payload_is_free
-from ascentplan.transcription.nlp import AscentNLP, NLPSolution, structure_key
-from ascentplan.transcription.propellant import propellant_accounting, residual_text
 
 # OBJECTIVE_UNITS is re-exported: callers have long imported the objective units from here
 __all__ = ["ACCELERATE_AFTER", "NLPCache", "OBJECTIVE_UNITS", "Result", "clear_cache",

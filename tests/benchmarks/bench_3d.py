@@ -26,7 +26,7 @@ def _point(nodes: int) -> None:
     from dataclasses import replace
 
     from ascentplan import load_problem, solve
-    from ascentplan.transcription import nlp as nlp_module
+    from ascentplan.optimisation import nlp as nlp_module
 
     problem = load_problem(problem_path(PROBLEM))
     problem = replace(problem, mesh=replace(problem.mesh, nodes_per_phase=nodes,

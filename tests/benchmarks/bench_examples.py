@@ -67,10 +67,10 @@ def _cold_point(name: str) -> dict:
 def _parts_point(name: str) -> dict:
     t0 = time.perf_counter()
     # the replay and the mass update are the pipeline's own steps, timed here one by one
+    from ascentplan.optimisation.nlp import AscentNLP
     from ascentplan.pipeline import _replay, _with_solution_masses, clear_cache, first_guess, solve
     from ascentplan.problem.loader import load_problem
     from ascentplan.replay.verify import verify
-    from ascentplan.transcription.nlp import AscentNLP
     import_s = time.perf_counter() - t0
 
     problem = load_problem(problem_path(name))

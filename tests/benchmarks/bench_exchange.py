@@ -32,9 +32,9 @@ GOAL_FRACTION = 0.05
 
 
 def _solve_once(name: str, mode: str) -> dict:
+    from ascentplan.optimisation import nlp
     from ascentplan.pipeline import clear_cache, solve
     from ascentplan.problem.loader import load_problem
-    from ascentplan.transcription import nlp
 
     # read when a solver is built; clear_cache() makes solve() build a new one
     nlp.IPOPT_OPTIONS["calc_lam_p"] = mode == "with"

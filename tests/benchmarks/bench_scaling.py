@@ -59,11 +59,12 @@ def _rss_mb() -> float:
 def _timed_point(name: str, symbolic: str, nodes: int) -> dict:
     from dataclasses import replace
 
+    from ascentplan.optimisation.nlp import AscentNLP
+
     # the replay and the mass update are the pipeline's own steps, timed here one by one
     from ascentplan.pipeline import _replay, _with_solution_masses, first_guess
     from ascentplan.problem.loader import load_problem
     from ascentplan.replay.verify import verify
-    from ascentplan.transcription.nlp import AscentNLP
 
     problem = load_problem(problem_path(name))
     problem = replace(problem, mesh=replace(problem.mesh, nodes_per_phase=nodes,
@@ -100,9 +101,9 @@ def _traced_point(name: str, symbolic: str, nodes: int) -> dict:
     import tracemalloc
     from dataclasses import replace
 
+    from ascentplan.optimisation.nlp import AscentNLP
     from ascentplan.pipeline import first_guess
     from ascentplan.problem.loader import load_problem
-    from ascentplan.transcription.nlp import AscentNLP
 
     problem = load_problem(problem_path(name))
     problem = replace(problem, mesh=replace(problem.mesh, nodes_per_phase=nodes,

@@ -354,7 +354,7 @@ class Mesh:
     limit_tolerance_fraction: float = 5e-3
     #: weight of the control-smoothness penalty, a fraction of the scaled objective per
     #: unit of squared node-to-node control change (see
-    #: :func:`ascentplan.transcription.nlp.control_smoothness`); 0 for none [-]
+    #: :func:`ascentplan.optimisation.nlp.control_smoothness`); 0 for none [-]
     control_smoothing: float = 0.0
     #: the NLP holds each path limit this fraction inside its bound (a maximum at
     #: bound (1 - margin), a minimum at bound + margin max(|bound|, floor)), so that the

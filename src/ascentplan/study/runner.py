@@ -8,7 +8,7 @@ the speed of 1 worker, its chunks of 8, 8 and 4 points leaving one worker with 1
 and each worker paying a derivative expansion that a three-solve rule triggered whether or
 not it paid. Now the chunks are 10 and 10, each worker is told how many points it is
 expected to solve, so that it expands its derivatives only when they repay the cost
-(:meth:`ascentplan.transcription.nlp.AscentNLP.expansion_pays`), and local workers run
+(:meth:`ascentplan.optimisation.nlp.AscentNLP.expansion_pays`), and local workers run
 their numerical libraries on one thread (:mod:`ascentplan.study.pool`);
 ``tests/benchmarks/bench_study.py`` measures the speed-up, beside how much CPU two
 processes can get on the machine at the time.

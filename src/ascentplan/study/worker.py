@@ -80,8 +80,8 @@ def solve_points(problem_path: str, digest: str, items: list, run: int,
     dict
         One row per point, in order; a point that raised has its error in its row.
     """
+    from ascentplan.optimisation.nlp import structure_key
     from ascentplan.pipeline import NLP_CACHE, solve
-    from ascentplan.transcription.nlp import structure_key
 
     counted = (problem_path, digest, run)
     with _SOLVE_LOCK:

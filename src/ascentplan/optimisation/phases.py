@@ -1,7 +1,7 @@
 """Pieces of one phase of the collocation NLP: its mesh, bounds, path limits and model.
 
 Everything here is a pure function of the problem and the phase; the NLP
-(:class:`ascentplan.transcription.nlp.AscentNLP`) assembles the pieces.
+(:class:`ascentplan.optimisation.nlp.AscentNLP`) assembles the pieces.
 """
 
 from __future__ import annotations

@@ -1,7 +1,7 @@
 """Why a problem is infeasible: the conditions that must give, and by how much.
 
 When IPOPT finds no schedule that meets every condition, the elastic form of the NLP
-(:mod:`ascentplan.transcription.elastic`) is solved from the point where it stopped. Its
+(:mod:`ascentplan.optimisation.elastic`) is solved from the point where it stopped. Its
 slacks say which targets and path limits must give for a schedule to exist: a target by
 how far it is missed, a limit by the bound the flight would need. With the L1 penalty a
 slack stays exactly zero while relaxing its condition would not pay for itself (the

@@ -14,7 +14,7 @@ propellant mass; per phase the states at the nodes (x = offset + scale * x_scale
 Hermite-Simpson the states at the interval midpoints (separated form), the controls at the
 nodes (throttle, pitch [rad]) and the phase duration (duration = duration_scale *
 t_scaled). Controls are piecewise linear between nodes. Variables, parameters and
-constraint rows are placed by name (:mod:`ascentplan.transcription.layout`).
+constraint rows are placed by name (:mod:`ascentplan.optimisation.layout`).
 """
 
 from __future__ import annotations
@@ -26,13 +26,11 @@ import casadi as ca
 import numpy as np
 
 from ascentplan.models import dynamics
-from ascentplan.problem.model import Problem, phase_plan
-from ascentplan.problem.objectives import OBJECTIVE_SPECS, Outcome
-from ascentplan.transcription.collocation import COLLOCATION_SCHEMES
-from ascentplan.transcription.control_rates import steering_rate_rows
-from ascentplan.transcription.elastic import OBJECTIVE_WEIGHT, HardRows, SoftRows
-from ascentplan.transcription.layout import ConstraintRows, ParameterLayout, VariableLayout
-from ascentplan.transcription.masses import (
+from ascentplan.optimisation.collocation import COLLOCATION_SCHEMES
+from ascentplan.optimisation.control_rates import steering_rate_rows
+from ascentplan.optimisation.elastic import OBJECTIVE_WEIGHT, HardRows, SoftRows
+from ascentplan.optimisation.layout import ConstraintRows, ParameterLayout, VariableLayout
+from ascentplan.optimisation.masses import (
     StackMasses,
     add_stack_masses,
     engine_inputs,
@@ -40,8 +38,8 @@ from ascentplan.transcription.masses import (
     vehicle_parameter_sizes,
     vehicle_parameter_values,
 )
-from ascentplan.transcription.orbit_targets import add_orbit_targets
-from ascentplan.transcription.phases import (
+from ascentplan.optimisation.orbit_targets import add_orbit_targets
+from ascentplan.optimisation.phases import (
     carrier_state,
     control_bounds,
     duration_bounds,
@@ -50,8 +48,10 @@ from ascentplan.transcription.phases import (
     node_function,
     nodes_for_phase,
 )
-from ascentplan.transcription.smoothing import control_smoothness
-from ascentplan.transcription.solution import Guess, NLPSolution
+from ascentplan.optimisation.smoothing import control_smoothness
+from ascentplan.optimisation.solution import Guess, NLPSolution
+from ascentplan.problem.model import Problem, phase_plan
+from ascentplan.problem.objectives import OBJECTIVE_SPECS, Outcome
 
 __all__ = ["ACCELERATE_MAX_VARIABLES", "EXPANSION_COST_ITERATIONS", "EXPANSION_SAVING_FRACTION",
            "ELASTIC_OPTIONS", "IPOPT_OPTIONS", "WARM_START_OPTIONS",
@@ -76,7 +76,7 @@ IPOPT_OPTIONS = {
     "record_time": True,
 }
 
-#: IPOPT options of the elastic form (see :mod:`ascentplan.transcription.elastic`): it
+#: IPOPT options of the elastic form (see :mod:`ascentplan.optimisation.elastic`): it
 #: only explains a failure, so it is bounded in iterations and time
 ELASTIC_OPTIONS = {
     "ipopt.max_iter": 200,
@@ -140,14 +140,14 @@ class AscentNLP:
     problem : Problem
     scales : dict
         ``x_offset``, ``x_scale`` (per state), ``durations`` (per phase) [s] and ``mass``
-        [kg], see :func:`ascentplan.transcription.guess.scales_for`.
+        [kg], see :func:`ascentplan.optimisation.guess.scales_for`.
     nodes_per_phase : int, optional
         Overrides ``problem.mesh.nodes_per_phase``.
     symbolic : str
         ``"MX"`` or ``"SX"``, the CasADi graph of the NLP.
     elastic : bool
         Build the elastic form instead: every target and path limit may be missed at an
-        L1 cost (:mod:`ascentplan.transcription.elastic`), which tells which must give
+        L1 cost (:mod:`ascentplan.optimisation.elastic`), which tells which must give
         when the NLP itself is infeasible.
     """
 

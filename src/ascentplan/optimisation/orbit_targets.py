@@ -11,7 +11,7 @@ def add_orbit_targets(nlp, xb) -> None:
 
     Parameters
     ----------
-    nlp : ascentplan.transcription.nlp.AscentNLP
+    nlp : ascentplan.optimisation.nlp.AscentNLP
         Being built: its conditions, rows, phases and phase variables are used.
     xb : CasADi expression
         Physical state at burnout.

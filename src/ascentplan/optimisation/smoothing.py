@@ -8,8 +8,8 @@ import casadi as ca
 import numpy as np
 
 from ascentplan.models import dynamics
+from ascentplan.optimisation.phases import control_bounds
 from ascentplan.problem.model import Problem, phase_plan
-from ascentplan.transcription.phases import control_bounds
 
 __all__ = ["control_smoothness"]
 

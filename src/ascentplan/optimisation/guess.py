@@ -5,9 +5,9 @@ from __future__ import annotations
 import numpy as np
 
 from ascentplan.models.dynamics import dynamics_kind
+from ascentplan.optimisation.phases import nodes_for_phase
+from ascentplan.optimisation.solution import Guess
 from ascentplan.problem.model import Problem, phase_plan
-from ascentplan.transcription.phases import nodes_for_phase
-from ascentplan.transcription.solution import Guess
 
 
 def _phase_samples(trajectory, j):

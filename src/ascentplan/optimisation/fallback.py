@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import casadi as ca
 
-from ascentplan.transcription.solution import NLPSolution
+from ascentplan.optimisation.solution import NLPSolution
 
 #: the barrier strategy tried when the NLP's own one fails
 OTHER_STRATEGY = {"adaptive": "monotone", "monotone": "adaptive"}
