@@ -56,3 +56,29 @@ def vertical_q_problem(max_q=None, nodes=40, max_refinements=2, max_accel=None) 
 
 def with_mesh(problem: Problem, **changes) -> Problem:
     return replace(problem, mesh=replace(problem.mesh, **changes))
+
+
+def vertical_q_yaml(name: str) -> str:
+    """The rocket of :func:`vertical_q_problem` as a problem file named ``name`` (a study
+    sends its workers a path), with a 30 kPa limit on a coarse mesh so that each solve
+    takes well under a second."""
+    return f"name: {name}\n" + _VERTICAL_Q_BODY
+
+
+_VERTICAL_Q_BODY = """\
+dynamics: vertical
+planet: {name: earth-like, radius: 6371 km, gravitational_parameter: 3.986004418e14 m^3/s^2}
+atmosphere: {model: exponential, scale_height: 7.2 km}
+gravity: inverse_square
+aerodynamics:
+  reference_area: 0.5 m^2
+  drag: {model: constant, cd: 0.35}
+vehicle:
+  payload_mass: 100 kg
+  stages:
+    - {name: booster, propellant_mass: 3000 kg, dry_mass: 400 kg, thrust_vacuum: 90 kN,
+       exhaust_speed: 2600 m/s, throttle: {min: 0.3, max: 1.0}}
+limits: {max_dynamic_pressure: 30 kPa}
+objective: max_burnout_speed
+mesh: {scheme: hermite_simpson, nodes_per_phase: 20}
+"""

@@ -23,6 +23,7 @@ import uuid
 from pathlib import Path
 
 import pytest
+from cases import vertical_q_yaml
 
 # the processes of a run are found by a mark in their environment, read from /proc
 pytestmark = pytest.mark.skipif(not Path("/proc/self/environ").exists(),
@@ -30,24 +31,7 @@ pytestmark = pytest.mark.skipif(not Path("/proc/self/environ").exists(),
 
 # Invented vehicle: the single-stage throttleable rocket of tests/test_sweep.py, on a
 # coarse mesh so that a point solves in a fraction of a second
-PROBLEM_YAML = """\
-name: vertical-q-faults
-dynamics: vertical
-planet: {name: earth-like, radius: 6371 km, gravitational_parameter: 3.986004418e14 m^3/s^2}
-atmosphere: {model: exponential, scale_height: 7.2 km}
-gravity: inverse_square
-aerodynamics:
-  reference_area: 0.5 m^2
-  drag: {model: constant, cd: 0.35}
-vehicle:
-  payload_mass: 100 kg
-  stages:
-    - {name: booster, propellant_mass: 3000 kg, dry_mass: 400 kg, thrust_vacuum: 90 kN,
-       exhaust_speed: 2600 m/s, throttle: {min: 0.3, max: 1.0}}
-limits: {max_dynamic_pressure: 30 kPa}
-objective: max_burnout_speed
-mesh: {scheme: hermite_simpson, nodes_per_phase: 20}
-"""
+PROBLEM_YAML = vertical_q_yaml("vertical-q-faults")
 
 VALUES = ["20 kPa", "25 kPa", "30 kPa", "35 kPa"]
 #: what stops each trial's run; a trial's run is the resume of the run before it

@@ -9,7 +9,7 @@ from __future__ import annotations
 from types import SimpleNamespace
 
 import pytest
-from cases import vertical_q_problem
+from cases import vertical_q_problem, vertical_q_yaml
 
 from ascentplan.optimisation.nlp import (
     EXPANSION_COST_ITERATIONS,
@@ -24,24 +24,7 @@ from ascentplan.study.worker import solve_points
 
 # the single-stage throttleable rocket of cases.vertical_q_problem as a file (a study sends
 # its workers a path), on a coarse mesh
-PROBLEM_YAML = """\
-name: vertical-q-scaling
-dynamics: vertical
-planet: {name: earth-like, radius: 6371 km, gravitational_parameter: 3.986004418e14 m^3/s^2}
-atmosphere: {model: exponential, scale_height: 7.2 km}
-gravity: inverse_square
-aerodynamics:
-  reference_area: 0.5 m^2
-  drag: {model: constant, cd: 0.35}
-vehicle:
-  payload_mass: 100 kg
-  stages:
-    - {name: booster, propellant_mass: 3000 kg, dry_mass: 400 kg, thrust_vacuum: 90 kN,
-       exhaust_speed: 2600 m/s, throttle: {min: 0.3, max: 1.0}}
-limits: {max_dynamic_pressure: 30 kPa}
-objective: max_burnout_speed
-mesh: {scheme: hermite_simpson, nodes_per_phase: 20}
-"""
+PROBLEM_YAML = vertical_q_yaml("vertical-q-scaling")
 
 
 @pytest.mark.parametrize("points", [1, 2, 3, 7, 19, 20, 21, 39, 40, 41, 97, 200])

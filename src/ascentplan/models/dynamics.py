@@ -320,6 +320,22 @@ class Vertical(DynamicsKind):
         return _stack([x[1], dv, -f["mass_flow"]])
 
 
+#: the first trajectory-file columns of every steered kind: flight, mass and controls
+STEERED_COLUMNS = (
+        ("altitude_m", "quantity", "altitude", 1.0),
+        ("speed_m_s", "quantity", "speed", 1.0),
+        ("flight_path_angle_deg", "quantity", "flight_path_angle", _DEG),
+        ("mass_kg", "state", "mass", 1.0),
+        ("throttle", "control", "throttle", 1.0),
+        ("pitch_deg", "control", "pitch", _DEG),
+)
+#: the loads that follow the attitude, written after the common air-data columns
+ATTITUDE_LOAD_COLUMNS = (
+    ("angle_of_attack_deg", "quantity", "angle_of_attack", _DEG),
+    ("q_alpha_kPa_deg", "quantity", "q_alpha", _DEG / 1000.0),
+)
+
+
 @dataclass(frozen=True)
 class Planar(DynamicsKind):
     """Flight in a plane over a spherical planet, inertial polar coordinates.
@@ -342,22 +358,13 @@ class Planar(DynamicsKind):
     description: ClassVar[str] = ("flight in the launch plane over a rotating sphere: radius, "
                                   "range angle, radial and horizontal speed, mass; throttle, "
                                   "pitch")
-    trajectory_columns: ClassVar[tuple] = (
-        ("altitude_m", "quantity", "altitude", 1.0),
-        ("speed_m_s", "quantity", "speed", 1.0),
-        ("flight_path_angle_deg", "quantity", "flight_path_angle", _DEG),
-        ("mass_kg", "state", "mass", 1.0),
-        ("throttle", "control", "throttle", 1.0),
-        ("pitch_deg", "control", "pitch", _DEG),
+    trajectory_columns: ClassVar[tuple] = STEERED_COLUMNS + (
         ("radius_m", "state", "radius", 1.0),
         ("range_angle_deg", "state", "range_angle", _DEG),
         ("radial_speed_m_s", "state", "radial_speed", 1.0),
         ("horizontal_speed_m_s", "state", "horizontal_speed", 1.0),
     )
-    extra_trajectory_columns: ClassVar[tuple] = (
-        ("angle_of_attack_deg", "quantity", "angle_of_attack", _DEG),
-        ("q_alpha_kPa_deg", "quantity", "q_alpha", _DEG / 1000.0),
-    )
+    extra_trajectory_columns: ClassVar[tuple] = ATTITUDE_LOAD_COLUMNS
 
     def radius(self, x, planet):
         return x[0]

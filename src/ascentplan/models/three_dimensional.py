@@ -33,7 +33,12 @@ import numpy as np
 
 from ascentplan import _math as m_
 from ascentplan.models import geodesy, orbit
-from ascentplan.models.dynamics import DynamicsKind, _stack
+from ascentplan.models.dynamics import (
+    ATTITUDE_LOAD_COLUMNS,
+    STEERED_COLUMNS,
+    DynamicsKind,
+    _stack,
+)
 
 _DEG = 180.0 / np.pi
 #: softening of norms that may vanish (zero air speed on the pad) [m/s] or [m]
@@ -82,13 +87,7 @@ class ThreeDimensional(DynamicsKind):
     description: ClassVar[str] = ("three-dimensional flight over a rotating, oblate planet: "
                                   "inertial position and velocity, mass; throttle, pitch, "
                                   "heading")
-    trajectory_columns: ClassVar[tuple] = (
-        ("altitude_m", "quantity", "altitude", 1.0),
-        ("speed_m_s", "quantity", "speed", 1.0),
-        ("flight_path_angle_deg", "quantity", "flight_path_angle", _DEG),
-        ("mass_kg", "state", "mass", 1.0),
-        ("throttle", "control", "throttle", 1.0),
-        ("pitch_deg", "control", "pitch", _DEG),
+    trajectory_columns: ClassVar[tuple] = STEERED_COLUMNS + (
         ("heading_deg", "control", "heading", _DEG),
         ("latitude_deg", "quantity", "latitude", _DEG),
         ("position_x_m", "state", "position_x", 1.0),
@@ -98,10 +97,7 @@ class ThreeDimensional(DynamicsKind):
         ("velocity_y_m_s", "state", "velocity_y", 1.0),
         ("velocity_z_m_s", "state", "velocity_z", 1.0),
     )
-    extra_trajectory_columns: ClassVar[tuple] = (
-        ("angle_of_attack_deg", "quantity", "angle_of_attack", _DEG),
-        ("q_alpha_kPa_deg", "quantity", "q_alpha", _DEG / 1000.0),
-    )
+    extra_trajectory_columns: ClassVar[tuple] = ATTITUDE_LOAD_COLUMNS
 
     # -- vectors ----------------------------------------------------------------------
     def position_velocity(self, x) -> tuple[list, list]:
