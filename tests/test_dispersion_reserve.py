@@ -18,6 +18,7 @@ import math
 
 import numpy as np
 import pytest
+from cases import vertical_q_yaml
 from scipy.stats import binom, norm
 
 from ascentplan.study.command import sweep_command
@@ -137,24 +138,7 @@ def test_peaks_at_the_stated_fraction_of_cases():
 
 # --- end to end -------------------------------------------------------------------------
 
-PROBLEM_YAML = """\
-name: reserve-study
-dynamics: vertical
-planet: {name: earth-like, radius: 6371 km, gravitational_parameter: 3.986004418e14 m^3/s^2}
-atmosphere: {model: exponential, scale_height: 7.2 km}
-gravity: inverse_square
-aerodynamics:
-  reference_area: 0.5 m^2
-  drag: {model: constant, cd: 0.35}
-vehicle:
-  payload_mass: 100 kg
-  stages:
-    - {name: booster, propellant_mass: 3000 kg, dry_mass: 400 kg, thrust_vacuum: 90 kN,
-       exhaust_speed: 2600 m/s, throttle: {min: 0.3, max: 1.0}}
-limits: {max_dynamic_pressure: 30 kPa}
-objective: max_burnout_speed
-mesh: {scheme: hermite_simpson, nodes_per_phase: 20}
-"""
+PROBLEM_YAML = vertical_q_yaml("reserve-study")
 
 
 def test_dispersion_study_reports_its_reserve(tmp_path, capsys):

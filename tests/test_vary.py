@@ -8,6 +8,7 @@ import csv
 import json
 
 import pytest
+from cases import vertical_q_yaml
 
 from ascentplan.pipeline import clear_cache, solve
 from ascentplan.problem.loader import load_problem
@@ -20,24 +21,7 @@ from ascentplan.study.summary import curve_slopes
 
 # Invented vehicle: the single-stage throttleable rocket of tests/test_sweep.py, with its
 # dry mass and Isp written with units, on a coarse mesh (each solve well under 1 s)
-PROBLEM_YAML = """\
-name: vary-study
-dynamics: vertical
-planet: {name: earth-like, radius: 6371 km, gravitational_parameter: 3.986004418e14 m^3/s^2}
-atmosphere: {model: exponential, scale_height: 7.2 km}
-gravity: inverse_square
-aerodynamics:
-  reference_area: 0.5 m^2
-  drag: {model: constant, cd: 0.35}
-vehicle:
-  payload_mass: 100 kg
-  stages:
-    - {name: booster, propellant_mass: 3000 kg, dry_mass: 400 kg, thrust_vacuum: 90 kN,
-       isp_vacuum: 265 s, throttle: {min: 0.3, max: 1.0}}
-limits: {max_dynamic_pressure: 30 kPa}
-objective: max_burnout_speed
-mesh: {scheme: hermite_simpson, nodes_per_phase: 20}
-"""
+PROBLEM_YAML = vertical_q_yaml("vary-study").replace("exhaust_speed: 2600 m/s", "isp_vacuum: 265 s")
 
 DRY = "vehicle.stages[0].dry_mass"
 ISP = "vehicle.stages[0].isp_vacuum"
