@@ -204,7 +204,7 @@ COMMON_QUANTITIES = (
     "altitude", "radius", "speed", "radial_speed", "horizontal_speed", "flight_path_angle",
     "relative_speed", "density", "pressure", "temperature", "speed_of_sound", "mach",
     "dynamic_pressure", "drag_coefficient", "drag", "thrust", "mass_flow", "gravity",
-    "axial_acceleration", "drag_along_velocity", "thrust_along_velocity",
+    "axial_acceleration", "drag_along_velocity", "thrust_along_velocity", "heat_flux",
 )
 
 
@@ -230,7 +230,9 @@ def _air_and_engine(kin, throttle, model, prop, mass) -> dict:
     # gross/(gross + w) (w a millionth of full thrust) removes it smoothly at zero throttle,
     # where a shut-down engine exerts no thrust, and changes it by ~1e-6 otherwise
     firing = gross / (gross + 1e-6 * prop.thrust_vacuum + 1e-9)
-    thrust = gross - atm.pressure * prop.exit_area * firing
+    # strap-on boosters burn at their fixed setting beside the throttled engine
+    thrust = (gross - atm.pressure * prop.exit_area * firing + prop.booster_thrust
+              - atm.pressure * prop.booster_exit_area)
     # drag per unit relative speed times components, divided without a singularity
     d_over_w = drag / rel_speed
     vr, vt = kin["radial_speed"], kin["horizontal_speed"]
@@ -241,7 +243,10 @@ def _air_and_engine(kin, throttle, model, prop, mass) -> dict:
         relative_speed=rel_speed, density=atm.density, pressure=atm.pressure,
         temperature=atm.temperature, speed_of_sound=atm.speed_of_sound, mach=mach,
         dynamic_pressure=q, drag_coefficient=cd, drag=drag, thrust=thrust,
-        mass_flow=throttle * prop.thrust_vacuum / prop.exhaust_speed,
+        # free-molecular aerothermal heat flux on a surface facing the flow [W m^-2]
+        heat_flux=q * rel_speed,
+        mass_flow=throttle * prop.thrust_vacuum / prop.exhaust_speed + prop.booster_mass_flow,
+        gross_thrust=gross + prop.booster_thrust,
         gravity=model.gravity.acceleration(kin["radius"]),
         axial_acceleration=(thrust - drag) / (mass * G0),
         drag_radial=d_over_w * wr, drag_horizontal=d_over_w * wt,
@@ -478,13 +483,19 @@ class Propulsion:
     """Engine data of one phase; fields may be CasADi symbols (NLP parameters).
 
     A coast phase has ``thrust_vacuum = 0``. ``drag_scale`` multiplies C_D on top of the
-    aerodynamics' own factor (the NLP passes its drag-scale parameter here).
+    aerodynamics' own factor (the NLP passes its drag-scale parameter here). The
+    ``booster_*`` fields are the strap-on boosters burning beside the stage at their fixed
+    settings: vacuum thrust [N], mass flow [kg s^-1] and nozzle exit area [m^2], summed
+    over the groups burning (zero without boosters).
     """
 
     thrust_vacuum: Any
     exhaust_speed: Any
     exit_area: Any = 0.0
     drag_scale: Any = 1.0
+    booster_thrust: Any = 0.0
+    booster_mass_flow: Any = 0.0
+    booster_exit_area: Any = 0.0
 
 
 def flight_model(problem) -> FlightModel:
@@ -494,11 +505,21 @@ def flight_model(problem) -> FlightModel:
                        problem.gravity, problem.aerodynamics, omega)
 
 
-def propulsion(stage, powered: bool = True) -> Propulsion:
-    """The :class:`Propulsion` of a stage, or of a coast when ``powered`` is False."""
+def propulsion(stage, powered: bool = True, boosters=()) -> Propulsion:
+    """The :class:`Propulsion` of a stage with the booster groups ``boosters`` burning
+    beside it, or of a coast when ``powered`` is False."""
     if not powered:
         return Propulsion(0.0, stage.exhaust_speed, 0.0)
-    return Propulsion(stage.thrust_vacuum, stage.exhaust_speed, stage.nozzle_exit_area)
+    return Propulsion(stage.thrust_vacuum, stage.exhaust_speed, stage.nozzle_exit_area,
+                      booster_thrust=sum(g.group_thrust for g in boosters),
+                      booster_mass_flow=sum(g.group_mass_flow for g in boosters),
+                      booster_exit_area=sum(g.count * g.nozzle_exit_area for g in boosters))
+
+
+def phase_propulsion(vehicle, phase) -> Propulsion:
+    """The :class:`Propulsion` of ``phase`` of ``vehicle``'s plan (numbers)."""
+    return propulsion(vehicle.stages[phase.stage], phase.powered,
+                      [vehicle.boosters[k] for k in phase.boosters])
 
 
 def flight_quantities(x, u, model: FlightModel, prop: Propulsion) -> dict:

@@ -36,6 +36,10 @@ class StackMasses:
         ignition and at its burnout, and its vacuum thrust.
     planned_burnout : list of symbol
         Per stage, the stack mass at its burnout with its propellant reserve on board.
+    casings : list of symbol
+        Per booster group, the dry mass of the whole group, dropped at its burnout.
+    fairing : symbol
+        The fairing mass (0 without a fairing).
     """
 
     payload: object
@@ -46,6 +50,8 @@ class StackMasses:
     burnout: list
     thrust: list
     planned_burnout: list
+    casings: list
+    fairing: object
 
 
 def payload_is_free(problem: Problem) -> bool:
@@ -64,10 +70,18 @@ def vehicle_parameter_sizes(problem: Problem) -> list[tuple[str, int]]:
     ``exit_area`` [m^2] are per stage, ``drag_scale`` [-] is the factor on C_D.
     """
     n = len(problem.vehicle.stages)
+    g = len(problem.vehicle.boosters)
+    fairing = problem.vehicle.fairing
     return [("payload", 1), ("propellant", n), ("structure", n), ("thrust", n),
             ("liftoff_mass", 1), ("reserve", n), ("reserve_fraction", n),
             ("thrust_to_weight", n), ("exhaust_speed", n), ("exit_area", n),
-            ("drag_scale", 1)]
+            ("drag_scale", 1),
+            ("booster_propellant", g), ("booster_dry", g), ("booster_thrust", g),
+            ("booster_exhaust_speed", g), ("booster_exit_area", g),
+            ("fairing_mass", 1 if fairing is not None else 0),
+            ("fairing_time", 1 if fairing is not None and fairing.time is not None else 0),
+            ("fairing_heat_flux",
+             1 if fairing is not None and fairing.heat_flux_bound is not None else 0)]
 
 
 def vehicle_parameter_values(problem: Problem, split: bool) -> dict:
@@ -90,7 +104,17 @@ def vehicle_parameter_values(problem: Problem, split: bool) -> dict:
             "thrust_to_weight": [s.thrust_to_weight or 0.0 for s in veh.stages],
             "exhaust_speed": [s.exhaust_speed for s in veh.stages],
             "exit_area": [s.nozzle_exit_area for s in veh.stages],
-            "drag_scale": problem.aerodynamics.drag_scale}
+            "drag_scale": problem.aerodynamics.drag_scale,
+            "booster_propellant": [b.propellant_mass for b in veh.boosters],
+            "booster_dry": [b.dry_mass for b in veh.boosters],
+            "booster_thrust": [b.thrust_vacuum for b in veh.boosters],
+            "booster_exhaust_speed": [b.exhaust_speed for b in veh.boosters],
+            "booster_exit_area": [b.nozzle_exit_area for b in veh.boosters],
+            "fairing_mass": [] if veh.fairing is None else [veh.fairing.mass],
+            "fairing_time": ([] if veh.fairing is None or veh.fairing.time is None
+                             else [veh.fairing.time]),
+            "fairing_heat_flux": ([] if veh.fairing is None or veh.fairing.heat_flux_bound is None
+                                  else [veh.fairing.heat_flux_bound])}
 
 
 def unscaled_drag(problem: Problem) -> Problem:
@@ -99,15 +123,35 @@ def unscaled_drag(problem: Problem) -> Problem:
     return replace(problem, aerodynamics=replace(problem.aerodynamics, drag_scale=1.0))
 
 
-def engine_inputs(params, masses: StackMasses, phase):
+def booster_burn_time(problem: Problem, params):
+    """``burn_time(group)`` of the groups from the NLP's parameters [s] (symbols)."""
+    index = {id(g): k for k, g in enumerate(problem.vehicle.boosters)}
+
+    def burn_time(group):
+        k = index[id(group)]
+        flow = (group.throttle * params.entries("booster_thrust")[k]
+                / params.entries("booster_exhaust_speed")[k])
+        return params.entries("booster_propellant")[k] / flow
+    return burn_time
+
+
+def engine_inputs(problem: Problem, params, masses: StackMasses, phase):
     """The node function's engine vector on ``phase``: [vacuum thrust [N], exhaust speed
-    [m/s], nozzle exit area [m^2], drag scale [-]] (no thrust and no exit area in a coast).
+    [m/s], nozzle exit area [m^2], drag scale [-], boosters' vacuum thrust [N], mass flow
+    [kg/s] and exit area [m^2]] (no thrust and no exit area in a coast).
     """
     i = phase.stage
+    thrust, flow, area = 0.0, 0.0, 0.0
+    for k in phase.boosters:
+        g = problem.vehicle.boosters[k]
+        f = g.count * g.throttle * params.entries("booster_thrust")[k]
+        thrust = thrust + f
+        flow = flow + f / params.entries("booster_exhaust_speed")[k]
+        area = area + g.count * params.entries("booster_exit_area")[k]
     return ca.vertcat(masses.thrust[i] if phase.powered else 0.0,
                       params.entries("exhaust_speed")[i],
                       params.entries("exit_area")[i] if phase.powered else 0.0,
-                      params.scalar("drag_scale"))
+                      params.scalar("drag_scale"), thrust, flow, area)
 
 
 def thrust_follows_weight(problem: Problem, index: int) -> bool:
@@ -162,7 +206,16 @@ def add_stack_masses(problem: Problem, variables, params, mass_scale: float) -> 
         dry = [dry_mass_from_ratio(p, r) for p, r in zip(propellant, structure)]
     else:
         dry = structure
-    above, ignition, burnout = stack_masses(payload, propellant, dry)
+    veh = problem.vehicle
+    b_prop, b_dry = params.entries("booster_propellant"), params.entries("booster_dry")
+    casings = [g.count * b_dry[k] for k, g in enumerate(veh.boosters)]
+    attached = [0.0] * len(veh.stages)
+    for k, g in enumerate(veh.boosters):
+        attached[g.stage] = attached[g.stage] + g.count * b_prop[k] + casings[k]
+    fairing = params.scalar("fairing_mass") if veh.fairing is not None else 0.0
+    above, ignition, burnout = stack_masses(
+        payload, propellant, dry, attached, fairing,
+        None if veh.fairing is None else veh.fairing.stage)
     thrust = []
     for i, (written, ratio) in enumerate(zip(params.entries("thrust"),
                                              params.entries("thrust_to_weight"))):
@@ -176,4 +229,4 @@ def add_stack_masses(problem: Problem, variables, params, mass_scale: float) -> 
                                                      propellant)]
     return StackMasses(payload=payload, propellant=propellant, dry=dry, above=above,
                        ignition=ignition, burnout=burnout, thrust=thrust,
-                       planned_burnout=planned)
+                       planned_burnout=planned, casings=casings, fairing=fairing)

@@ -50,6 +50,7 @@ from ascentplan.optimisation.phases import (
 )
 from ascentplan.optimisation.smoothing import control_smoothness
 from ascentplan.optimisation.solution import Guess, NLPSolution
+from ascentplan.optimisation.stack_rows import add_event_rows, flux_after_fairing, mass_after
 from ascentplan.problem.model import Problem, phase_plan
 from ascentplan.problem.objectives import OBJECTIVE_SPECS, Outcome
 
@@ -107,8 +108,15 @@ def structure_key(problem: Problem) -> tuple:
     stages = tuple(
         (s.throttle_min, s.throttle_max, s.max_throttle_rate, s.max_steering_rate, s.coast_after,
          s.structural_ratio, s.thrust_to_weight is not None, s.propellant_min,
-         s.propellant_max, s.may_shut_down_early)
+         s.propellant_max, s.may_shut_down_early, s.restarts, s.restart_coast_min,
+         s.restart_coast_max)
         for s in problem.vehicle.stages)
+    # the plan fixes the phases (booster events, fairing, restarts); the groups' counts
+    # and settings and the fairing's rule are not parameters
+    stages += (tuple(phase_plan(problem)),
+               tuple((g.stage, g.count, g.throttle, g.ignition) for g in problem.vehicle.boosters),
+               None if problem.vehicle.fairing is None else (
+                   problem.vehicle.fairing.stage, problem.vehicle.fairing.time is None))
     return (problem.dynamics, problem.planet, problem.atmosphere, problem.gravity,
             unscaled_drag(problem).aerodynamics, problem.launch, stages,
             tuple(problem.limits.active_names()),
@@ -233,11 +241,14 @@ class AscentNLP:
         self.phase_vars.append(_PhaseSymbols(X, U, T_s, physical))
         h = T_s * self.duration_scale[j] * (1.0 / (N - 1))  # interval length [s]
         specs = limits_on(self.problem, self.kind, ph)
-        Q = self._collocate(j, stage, Xc, h, masses, [s.quantity for s in specs])
+        flux = flux_after_fairing(self.problem, self.phases, j)
+        Q = self._collocate(j, stage, Xc, h, masses,
+                            [s.quantity for s in specs] + (["heat_flux"] if flux else []))
         self._add_path_limits(j, specs, Q)
         self._add_throttle_rate(j, stage, U, h)
         self._link(j, masses)
         self._add_phase_end(j, masses)
+        add_event_rows(self, j, Q[len(specs), :] if flux else None)
 
     def _collocate(self, j: int, stage, Xc, h, masses: StackMasses, quantities):
         """Collocation rows of phase ``j``; returns the path quantities at every point.
@@ -249,7 +260,7 @@ class AscentNLP:
         sym = self.phase_vars[j]
         X, U = sym.states, sym.controls
         off, sc = self.x_offset[:, None], self.x_scale[:, None]
-        engine = engine_inputs(self.parameters, masses, ph)
+        engine = engine_inputs(self.problem, self.parameters, masses, ph)
         point = node_function(self.model, quantities)
         F_nodes, Q_nodes = point.map(N)(sym.physical, U, engine)
         Fs = F_nodes / sc  # scaled state derivative per physical second
@@ -324,11 +335,8 @@ class AscentNLP:
             return
         X_prev = self.phase_vars[j - 1].states
         self.rows.add(f"link{j}", sym.states[others, 0] - X_prev[others, -1], 0.0, 0.0)
-        prev = self.phases[j - 1]
-        if prev.kind == "burn" and prev.stage < self.n_stages - 1:
-            end_mass = masses.above[prev.stage]
-        else:
-            end_mass = self.x_offset[m] + self.x_scale[m] * X_prev[m, -1]
+        end_mass = mass_after(self, j - 1, masses,
+                              self.x_offset[m] + self.x_scale[m] * X_prev[m, -1])
         self.rows.add(f"link{j}_mass", (start_mass - end_mass) / self.mass_scale, 0.0, 0.0)
 
     def _add_phase_end(self, j: int, masses: StackMasses) -> None:

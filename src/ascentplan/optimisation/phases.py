@@ -30,7 +30,7 @@ def nodes_for_phase(phase: Phase, nodes_per_phase: int) -> int:
     """Mesh nodes of a phase: short fixed segments get fewer."""
     if phase.kind == "rise":
         return max(5, nodes_per_phase // 4)
-    if phase.kind == "coast" and not phase.ends_at_apogee:
+    if phase.kind == "coast" and not phase.ends_at_apogee and phase.duration_range is None:
         return max(5, nodes_per_phase // 4)
     return nodes_per_phase
 
@@ -78,6 +78,8 @@ def duration_bounds(phase: Phase, duration_scale: float) -> tuple[float, float]:
     if phase.duration is not None:
         fixed = phase.duration / duration_scale
         return fixed, fixed
+    if phase.duration_range is not None:
+        return phase.duration_range[0] / duration_scale, phase.duration_range[1] / duration_scale
     return _FREE_DURATION
 
 
@@ -90,16 +92,15 @@ def limits_on(problem: Problem, kind, phase: Phase) -> list[LimitSpec]:
 
 def last_of_stage(phases: list[Phase], j: int) -> bool:
     """Whether phase ``j`` is the last powered phase of its stage."""
-    ph = phases[j]
-    return ph.powered and (j + 1 >= len(phases) or phases[j + 1].kind != "burn"
-                           or phases[j + 1].stage != ph.stage)
+    return phases[j].ends_stage
 
 
 def node_function(model, quantities) -> ca.Function:
     """SX Function (x_phys, u, engine) -> (xdot, [the flight quantities named]).
 
     ``engine`` is [vacuum thrust [N], exhaust speed [m/s], nozzle exit area [m^2], drag
-    scale [-]]: NLP parameters (or expressions of them), so that their multipliers price
+    scale [-], boosters' thrust [N], mass flow [kg/s] and exit area [m^2]]: NLP
+    parameters (or expressions of them), so that their multipliers price
     them and a change of their values reuses the built NLP.
 
     Parameters
@@ -110,8 +111,10 @@ def node_function(model, quantities) -> ca.Function:
     """
     x = ca.SX.sym("x", model.n_states)
     u = ca.SX.sym("u", model.n_controls)
-    engine = ca.SX.sym("prop", 4)
-    prop = dynamics.Propulsion(engine[0], engine[1], engine[2], engine[3])
+    engine = ca.SX.sym("prop", 7)
+    prop = dynamics.Propulsion(engine[0], engine[1], engine[2], engine[3],
+                               booster_thrust=engine[4], booster_mass_flow=engine[5],
+                               booster_exit_area=engine[6])
     xdot = dynamics.rhs(0.0, x, u, (model, prop))
     fq = dynamics.flight_quantities(x, u, model, prop)
     Q = ca.vertcat(*[fq[name] for name in quantities])

@@ -88,7 +88,9 @@ def propellant_accounting(problem: Problem, solution) -> list[StagePropellant]:
     for j, ph in enumerate(phase_plan(problem)):
         if ph.powered:
             x = solution.states[j]
-            burnt[ph.stage] += float(x[m, 0] - x[m, -1])
+            # the boosters burning beside the stage burn at their fixed settings
+            beside = sum(problem.vehicle.boosters[k].group_mass_flow for k in ph.boosters)
+            burnt[ph.stage] += float(x[m, 0] - x[m, -1]) - beside * solution.durations[j]
     return [StagePropellant(name=s.name, loaded=float(s.propellant_mass), burnt=float(b),
                             reserve=float(s.reserve_mass),
                             may_shut_down_early=s.may_shut_down_early)

@@ -108,6 +108,8 @@ LIMITS: dict[str, LimitSpec] = {spec.name: spec for spec in (
               POWERED_PHASES, "max axial acceleration"),
     LimitSpec("max_q_alpha", "q_alpha", "max", "Pa rad", "kPa deg", 1000.0 * math.pi / 180.0,
               ("burn",), "max q alpha", magnitude=True),
+    LimitSpec("max_heat_flux", "heat_flux", "max", "W/m^2", "W/m^2", 1.0, ALL_PHASES,
+              "max heat flux"),
     LimitSpec("min_altitude", "altitude", "min", "m", "km", 1000.0, ALL_PHASES,
               "min altitude", positive=False, excess_floor=1000.0, at_liftoff=False),
 )}

@@ -14,6 +14,8 @@ from typing import Any
 from ascentplan.constants import G0
 from ascentplan.problem.limits import LIMIT_UNITS, LIMITS
 from ascentplan.problem.objectives import OBJECTIVE_SPECS, OBJECTIVES
+from ascentplan.problem.plan import Phase, phase_plan
+from ascentplan.problem.stack import BoosterGroup, Fairing
 
 __all__ = ["LIMIT_UNITS", "LIMITS", "OBJECTIVES", "OBJECTIVE_SPECS", "SCHEMES", "Aerodynamics",
            "Launch", "Limits", "MassSplit", "Mesh", "Phase", "Planet", "Problem", "Stage",
@@ -36,17 +38,31 @@ def thrust_from_ratio(thrust_to_weight, ignition_mass):
     return thrust_to_weight * G0 * ignition_mass
 
 
-def stack_masses(payload_mass, propellant_masses, dry_masses) -> tuple[list, list, list]:
+def stack_masses(payload_mass, propellant_masses, dry_masses, attached=None, fairing_mass=0.0,
+                 fairing_stage=None) -> tuple[list, list, list]:
     """Masses of a serial stack, first stage first [kg].
 
-    Returns ``(above, ignition, burnout)``: for each stage the mass it carries (payload
-    and all later stages), the stack mass at its ignition and at its burnout.
+    ``attached`` is per stage the mass of its strap-on boosters (propellant and casings,
+    all dropped before the stage burns out); the fairing, of mass ``fairing_mass``, is
+    dropped during the burn of stage ``fairing_stage``. Returns ``(above, ignition,
+    burnout)``: for each stage the mass it carries once it has burnt out (payload, a
+    fairing not yet dropped and all later stages), the stack mass at its ignition and at
+    its burnout.
     """
     n = len(propellant_masses)
-    above = [payload_mass] * n
+    attached = attached if attached is not None else [0.0] * n
+
+    def fairing_on(i, at_ignition):
+        if fairing_stage is None:
+            return 0.0
+        return fairing_mass if (i < fairing_stage or (at_ignition and i == fairing_stage)) else 0.0
+
+    later = [0.0] * n
     for i in range(n - 2, -1, -1):
-        above[i] = above[i + 1] + propellant_masses[i + 1] + dry_masses[i + 1]
-    ignition = [above[i] + propellant_masses[i] + dry_masses[i] for i in range(n)]
+        later[i] = later[i + 1] + propellant_masses[i + 1] + dry_masses[i + 1] + attached[i + 1]
+    above = [payload_mass + later[i] + fairing_on(i, False) for i in range(n)]
+    ignition = [payload_mass + later[i] + fairing_on(i, True) + propellant_masses[i]
+                + dry_masses[i] + attached[i] for i in range(n)]
     burnout = [above[i] + dry_masses[i] for i in range(n)]
     return above, ignition, burnout
 
@@ -104,6 +120,10 @@ class Stage:
     propellant_reserve_fraction : float
         A further reserve as a fraction of ``propellant_mass`` [-] (it follows the
         propellant in a stage-mass split).
+    restarts : int
+        Further burns after the first, each after a ballistic coast [-].
+    restart_coast_min, restart_coast_max : float
+        Bounds on each coast between burns, chosen by the optimiser [s].
     """
 
     name: str
@@ -124,6 +144,9 @@ class Stage:
     shutdown: str | None = None
     propellant_reserve: float = 0.0
     propellant_reserve_fraction: float = 0.0
+    restarts: int = 0
+    restart_coast_min: float = 10.0
+    restart_coast_max: float = 3.0 * 3600.0
 
     @property
     def mass(self) -> float:
@@ -172,19 +195,33 @@ class Stage:
 
 @dataclass(frozen=True)
 class Vehicle:
-    """A payload on top of serial stages, first stage first."""
+    """A payload on top of serial stages, first stage first, with the stages' strap-on
+    booster groups (:class:`~ascentplan.problem.stack.BoosterGroup`) and a fairing."""
 
     payload_mass: float
     stages: tuple[Stage, ...]
+    boosters: tuple[BoosterGroup, ...] = ()
+    fairing: Fairing | None = None
 
     @property
     def liftoff_mass(self) -> float:
         """Total mass at liftoff [kg]."""
-        return self.payload_mass + sum(s.mass for s in self.stages)
+        return self.ignition_mass(0)
+
+    def attached_mass(self, index: int) -> float:
+        """Mass of the booster groups of stage ``index`` (propellant and casings) [kg]."""
+        return sum(g.mass for g in self.boosters if g.stage == index)
+
+    def groups_of(self, index: int) -> list[BoosterGroup]:
+        """The booster groups of stage ``index``."""
+        return [g for g in self.boosters if g.stage == index]
 
     def _stack(self) -> tuple[list, list, list]:
+        f = self.fairing
         return stack_masses(self.payload_mass, [s.propellant_mass for s in self.stages],
-                            [s.dry_mass for s in self.stages])
+                            [s.dry_mass for s in self.stages],
+                            [self.attached_mass(i) for i in range(len(self.stages))],
+                            0.0 if f is None else f.mass, None if f is None else f.stage)
 
     def mass_above(self, index: int) -> float:
         """Mass carried by stage ``index``: payload plus all stages after it [kg]."""
@@ -210,14 +247,14 @@ class Vehicle:
             dry = dry_mass_from_ratio(mp, s.ratio_of_structure)
             stages.append(replace(s, propellant_mass=float(mp), dry_mass=float(dry)))
         payload = self.payload_mass if payload_mass is None else float(payload_mass)
-        vehicle = Vehicle(payload_mass=payload, stages=tuple(stages))
+        vehicle = replace(self, payload_mass=payload, stages=tuple(stages))
         scaled = []
         for i, s in enumerate(vehicle.stages):
             if s.thrust_to_weight is not None:
                 s = replace(s, thrust_vacuum=thrust_from_ratio(s.thrust_to_weight,
                                                                vehicle.ignition_mass(i)))
             scaled.append(s)
-        return Vehicle(payload_mass=payload, stages=tuple(scaled))
+        return replace(vehicle, stages=tuple(scaled))
 
 
 @dataclass(frozen=True)
@@ -286,6 +323,7 @@ class Limits:
     max_dynamic_pressure: float | None = None  # [Pa]
     max_axial_acceleration: float | None = None  # [g0]
     max_q_alpha: float | None = None  # [Pa rad]
+    max_heat_flux: float | None = None  # [W m^-2], free-molecular 1/2 rho v^3
     min_altitude: float | None = None  # [m]
 
     def active_names(self) -> list[str]:
@@ -397,43 +435,6 @@ class Problem:
 
     def with_limits(self, **changes) -> Problem:
         return replace(self, limits=replace(self.limits, **changes))
-
-
-@dataclass(frozen=True)
-class Phase:
-    """One segment of the flight with smooth dynamics.
-
-    kind is ``"rise"`` (vertical rise of stage 0, fixed duration, pitch 90 deg),
-    ``"burn"`` (stage ``stage`` powered), or ``"coast"`` (no thrust; ``stage`` is the
-    index of the last stage dropped, or the last stage for a final coast).
-    ``duration`` is fixed when not None. ``ends_at_apogee`` marks a final coast that
-    ends where the radial speed is zero.
-    """
-
-    kind: str
-    stage: int
-    duration: float | None = None
-    ends_at_apogee: bool = False
-
-    @property
-    def powered(self) -> bool:
-        return self.kind in ("rise", "burn")
-
-
-def phase_plan(problem: Problem) -> list[Phase]:
-    """The sequence of phases that both the simulator and the optimiser fly."""
-    phases: list[Phase] = []
-    stages = problem.vehicle.stages
-    for i, stage in enumerate(stages):
-        if i == 0 and problem.launch.vertical_rise > 0:
-            phases.append(Phase("rise", 0, duration=problem.launch.vertical_rise))
-        phases.append(Phase("burn", i))
-        if stage.coast_after > 0 and i < len(stages) - 1:
-            phases.append(Phase("coast", i, duration=stage.coast_after))
-    spec = OBJECTIVE_SPECS.get(problem.objective)
-    if spec is not None and spec.final_coast:
-        phases.append(Phase("coast", len(stages) - 1, ends_at_apogee=True))
-    return phases
 
 
 #: collocation schemes by the name used in problem files

@@ -60,17 +60,16 @@ def loss_rates(x, u, model, prop) -> list:
     prop : ascentplan.models.dynamics.Propulsion
     """
     f = dynamics.flight_quantities(x, u, model, prop)
-    throttle = u[0]
     mass = model.kind.mass(x)
     speed = m_.smooth_norm(f["radial_speed"], f["horizontal_speed"], eps=_SPEED_EPS)
     sin_gamma = f["radial_speed"] / speed
     return [
-        throttle * prop.thrust_vacuum / mass,
+        f["gross_thrust"] / mass,
         f["gravity"] * sin_gamma,
         f["drag_along_velocity"] / mass,
         f["thrust"] / mass - f["thrust_along_velocity"] / mass,
         # nozzle back-pressure: what the ambient pressure takes from the vacuum thrust
-        (throttle * prop.thrust_vacuum - f["thrust"]) / mass,
+        (f["gross_thrust"] - f["thrust"]) / mass,
     ]
 
 

@@ -14,6 +14,7 @@ import numpy as np
 from scipy.integrate import OdeSolution, solve_ivp
 
 from ascentplan.models import dynamics
+from ascentplan.problem.plan import aboard_beyond_core
 
 #: uniform samples per phase added to the solver steps
 SAMPLES_PER_PHASE = 400
@@ -107,8 +108,28 @@ def _coast_cap(problem, x) -> float:
     return FLIGHT_CAP
 
 
-def _end_events(problem, phase) -> list:
-    """The events that may end (or mark) a phase: (label, event function) pairs."""
+#: under the default schedule, the propellant kept for a stage's later burns, as a
+#: fraction of its load, shared equally between them [-]
+RESTART_SHARE = 0.2
+#: under the default schedule, the shortest burn before a heat-flux fairing jettison [s]
+_JETTISON_AFTER = 5.0
+
+
+def _gated(fun, t_open):
+    """``fun`` that cannot cross zero before ``t_open`` [s] (it reads +1 until then)."""
+    def gated(t, y):
+        return fun(t, y) if t >= t_open else 1.0
+    return gated
+
+
+def _end_events(problem, plan, k, t0, timed) -> list:
+    """The events that may end (or mark) phase ``k``: (label, event function) pairs.
+
+    A timed phase ends at its scheduled time; an untimed one (the default schedule) may
+    end on a cut-off before a restart, a fairing jettison on the heat flux, or the apogee
+    of a coast between burns (not before its shortest duration).
+    """
+    phase = plan[k]
     kind = dynamics.dynamics_kind(problem.dynamics)
     planet = problem.planet
     h_impact = problem.launch.altitude - IMPACT_MARGIN
@@ -119,20 +140,47 @@ def _end_events(problem, phase) -> list:
     impact.terminal, impact.direction = True, -1
     events = [("impact", impact)]
     if phase.powered:
-        m_burnout = problem.vehicle.burnout_mass(phase.stage)
+        stage = problem.vehicle.stages[phase.stage]
+        m_burnout = (problem.vehicle.burnout_mass(phase.stage)
+                     + aboard_beyond_core(problem, plan, k))
 
         def depletion(t, y):
             return kind.mass(y) - m_burnout
 
         depletion.terminal, depletion.direction = True, -1
         events.append(("depletion", depletion))
+        if not timed and phase.kind == "burn" and phase.burn < stage.restarts:
+            kept = RESTART_SHARE * stage.propellant_mass * (stage.restarts - phase.burn) \
+                / stage.restarts
+
+            def cutoff(t, y):
+                return kind.mass(y) - m_burnout - kept
+
+            cutoff.terminal, cutoff.direction = True, -1
+            events.append(("cutoff", cutoff))
+        if not timed and phase.drops_fairing:
+            bound = problem.vehicle.fairing.heat_flux_bound
+            model = dynamics.flight_model(problem)
+
+            def flux(t, y):
+                f = dynamics.flight_quantities(y[:kind.n_states], [1.0, 0.0, 0.0][
+                    :len(kind.control_names)], model, dynamics.Propulsion(0.0, 1.0))
+                return 0.5 * f["density"] * f["relative_speed"] ** 3 - bound
+
+            jettison = _gated(flux, t0 + _JETTISON_AFTER)
+            jettison.terminal, jettison.direction = True, -1
+            events.append(("jettison", jettison))
     else:
-        def apogee(t, y):
+        def radial(t, y):
             return kind.radial_speed(y)
 
+        apogee = radial
+        ends = phase.ends_at_apogee or (phase.duration_range is not None and not timed)
+        if phase.duration_range is not None and not timed:
+            apogee = _gated(radial, t0 + phase.duration_range[0])
         # a coast that does not end at apogee may still pass one: record it
-        apogee.terminal, apogee.direction = phase.ends_at_apogee, -1
-        events.append(("apogee" if phase.ends_at_apogee else "apogee_pass", apogee))
+        apogee.terminal, apogee.direction = ends, -1
+        events.append(("apogee" if ends else "apogee_pass", apogee))
     return events
 
 
@@ -239,7 +287,7 @@ class _Integration:
                                > FLAMEOUT_FRACTION * max(1.0, self.t_end - self.run.t0))
 
 
-def fly_phase(problem, law, rates, k, phase, t0, y0, options, exhausted):
+def fly_phase(problem, law, rates, k, phase, t0, y0, options, exhausted, plan=None):
     """Fly phase ``k`` of the plan from time ``t0`` [s] and augmented state ``y0``.
 
     Parameters
@@ -265,8 +313,11 @@ def fly_phase(problem, law, rates, k, phase, t0, y0, options, exhausted):
         Scheduled end of the phase [s], None when it ends on an event.
     """
     kind = dynamics.dynamics_kind(problem.dynamics)
+    plan = list(plan) if plan is not None else list(law.plan)
+    if k >= len(plan):
+        plan.append(phase)
     stage = problem.vehicle.stages[phase.stage]
-    prop = dynamics.propulsion(stage, phase.powered)
+    prop = dynamics.phase_propulsion(problem.vehicle, phase)
     t_sched = law.phase_end(k, phase, t0)
     run = PhaseRun(t0=t0, t1=t0, y1=y0.copy(), ended_by="end")
     run.rules.append((t0, law.rule(k, phase, t0, law.modes(k, phase, t0)[0][0])))
@@ -281,10 +332,13 @@ def fly_phase(problem, law, rates, k, phase, t0, y0, options, exhausted):
         t_end = t_sched
     elif phase.powered:
         t_end = t0 + max(FLIGHT_CAP, 10.0 * stage.full_throttle_burn_time)
+    elif phase.duration_range is not None:
+        t_end = t0 + phase.duration_range[1]
+        timed = True
     else:
         t_end = t0 + _coast_cap(problem, y0[:kind.n_states])
-    flight = _Integration(run, k, rates, prop, _end_events(problem, phase), options, t_end,
-                          timed)
+    flight = _Integration(run, k, rates, prop, _end_events(problem, plan, k, t0, timed),
+                          options, t_end, timed)
     breaks = np.asarray(law.breaks(k, phase, t0), dtype=float)
     run.rules = []
     for mode, mode_end, switch in law.modes(k, phase, t0):

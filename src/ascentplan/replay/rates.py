@@ -10,12 +10,17 @@ import numpy as np
 from ascentplan.models import dynamics
 from ascentplan.replay.budget import LOSS_NAMES, loss_rates
 
+#: engine numbers of a phase in the rates' argument: thrust, exhaust speed, exit area,
+#: and the boosters' thrust, mass flow and exit area
+_N_ENGINE = 6
+
 
 def _build_rates(model):
     n, nu = model.n_states, model.n_controls
-    z = ca.SX.sym("z", n + nu + 3)
-    x, u = z[:n], z[n:n + nu]
-    prop = dynamics.Propulsion(z[n + nu], z[n + nu + 1], z[n + nu + 2])
+    z = ca.SX.sym("z", n + nu + _N_ENGINE)
+    x, u, e = z[:n], z[n:n + nu], z[n + nu:]
+    prop = dynamics.Propulsion(e[0], e[1], e[2], booster_thrust=e[3], booster_mass_flow=e[4],
+                               booster_exit_area=e[5])
     out = ca.vertcat(dynamics.rhs(0.0, x, u, (model, prop)), *loss_rates(x, u, model, prop))
     # the flight quantities appear in both the motion and the budget: share them
     return ca.Function("ascent_rates", [z], [ca.cse(out)])
@@ -48,7 +53,7 @@ class Rates:
     def __init__(self, model):
         self.n, self.nu = model.n_states, model.n_controls
         self.function = _rates_function(model)
-        self._z = np.zeros(self.n + self.nu + 3)
+        self._z = np.zeros(self.n + self.nu + _N_ENGINE)
         self._out = np.zeros(self.n + len(LOSS_NAMES))
         self._buffer, self._trigger = self.function.buffer()
         self._buffer.set_arg(0, memoryview(self._z))
@@ -65,7 +70,9 @@ class Rates:
             The controls ``rule(t, x)`` flown over the segment.
         """
         n, nu, z, out, trigger = self.n, self.nu, self._z, self._out, self._trigger
-        p = (float(prop.thrust_vacuum), float(prop.exhaust_speed), float(prop.exit_area))
+        p = (float(prop.thrust_vacuum), float(prop.exhaust_speed), float(prop.exit_area),
+             float(prop.booster_thrust), float(prop.booster_mass_flow),
+             float(prop.booster_exit_area))
 
         def fun(t, y):
             z[:n] = y[:n]

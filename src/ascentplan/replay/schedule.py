@@ -16,6 +16,7 @@ import numpy as np
 from ascentplan.models import dynamics
 from ascentplan.problem.model import Phase, TimeSchedule
 from ascentplan.problem.model import phase_plan as plan_of
+from ascentplan.problem.plan import booster_phase_duration
 
 #: length of the pitch-over kick of the default steering [s]
 KICK_DURATION = 5.0
@@ -490,7 +491,12 @@ class ControlLaw:
         pc = self.controls(k)
         if pc is not None:
             return t0 + pc.duration
-        if phase.kind in ("rise", "coast"):
+        if phase.burnouts:
+            return t0 + float(booster_phase_duration(self.problem, self.plan, k))
+        fairing = self.problem.vehicle.fairing
+        if phase.drops_fairing and fairing.time is not None:
+            return max(t0, fairing.time)
+        if phase.duration is not None:
             return t0 + float(phase.duration)
         return None
 

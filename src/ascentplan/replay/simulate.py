@@ -13,6 +13,7 @@ import numpy as np
 
 from ascentplan.models import dynamics
 from ascentplan.problem.model import Phase, phase_plan
+from ascentplan.problem.plan import aboard_beyond_core
 from ascentplan.replay.budget import LOSS_NAMES, LOSS_QUANTITIES, burnout_budget
 from ascentplan.replay.phases import (
     FLAMEOUT_FRACTION,
@@ -140,7 +141,8 @@ def simulate(problem, schedule=None, *, coast_to_apogee: bool = True, rtol: floa
         props.append(prop)
         phases.append(phase)
         t = run.t1
-        status, message, y = _close_phase(problem, k, phase, run, t_sched, exhausted, events)
+        status, message, y = _close_phase(problem, plan, k, phase, run, t_sched, exhausted,
+                                          events)
         if status != "ok":
             break
         k += 1
@@ -148,7 +150,7 @@ def simulate(problem, schedule=None, *, coast_to_apogee: bool = True, rtol: floa
     return _assemble(problem, model, runs, props, phases, events, status, message)
 
 
-def _close_phase(problem, k, phase, run, t_sched, exhausted, events):
+def _close_phase(problem, plan, k, phase, run, t_sched, exhausted, events):
     """Record the events that end phase ``k``; stage when a burn ends.
 
     Returns the status of the flight after the phase (``"ok"``, ``"impact"``,
@@ -171,12 +173,53 @@ def _close_phase(problem, k, phase, run, t_sched, exhausted, events):
         events.append(_event_record("apogee", t, k, phase.stage, x, problem,
                                     scheduled_end=t_sched))
     if phase.powered:
-        _close_powered(problem, k, phase, run, t_sched, exhausted, events, y)
+        _close_powered(problem, k, phase, run, t_sched, exhausted, events, y,
+                       plan if k < len(plan) else None)
+    elif phase.duration_range is not None and k + 1 < len(plan):
+        events.append(_event_record("restart", t, k + 1, phase.stage, x, problem,
+                                    burn=plan[k + 1].burn))
     return "ok", "", y
 
 
-def _close_powered(problem, k, phase, run, t_sched, exhausted, events, y):
+def _close_segment(problem, plan, k, phase, run, t_sched, exhausted, events, y):
+    """The end of a powered phase that does not end its stage: booster groups burnt out
+    and dropped (air-lit ones ignite), the fairing dropped, or a cut-off before a restart;
+    a flame-out when the stage ran dry. Drops mass in ``y``."""
+    kind = dynamics.dynamics_kind(problem.dynamics)
+    n, m = kind.n_states, kind.index("mass")
+    vehicle = problem.vehicle
+    stage, t, x = phase.stage, run.t1, y[:n]
+    if run.ended_by == "depletion" or run.flameout_time is not None:
+        exhausted.add(stage)
+        t_out = run.flameout_time if run.flameout_time is not None else t
+        events.append(_event_record("flameout", t_out, k, stage, x, problem,
+                                    scheduled_end=t_sched, propellant_remaining=0.0))
+    for g in phase.burnouts:
+        group = vehicle.boosters[g]
+        dropped = group.count * group.dry_mass
+        events.append(_event_record("booster_burnout", t, k, stage, y[:n], problem,
+                                    group=group.name, dropped_mass=float(dropped)))
+        y[m] -= dropped
+        for later in vehicle.boosters:
+            if later.ignition == group.name and later.stage == stage:
+                events.append(_event_record("booster_ignition", t, k, stage, y[:n], problem,
+                                            group=later.name))
+    if phase.drops_fairing:
+        events.append(_event_record("fairing_jettison", t, k, stage, y[:n], problem,
+                                    dropped_mass=float(vehicle.fairing.mass)))
+        y[m] -= vehicle.fairing.mass
+    if phase.kind == "burn" and k + 1 < len(plan) and plan[k + 1].duration_range is not None:
+        remaining = float(kind.mass(x) - vehicle.burnout_mass(stage)
+                          - aboard_beyond_core(problem, plan, k))
+        events.append(_event_record("cutoff", t, k, stage, x, problem, burn=phase.burn,
+                                    propellant_remaining=remaining))
+
+
+def _close_powered(problem, k, phase, run, t_sched, exhausted, events, y, plan=None):
     """Burnout or flame-out events of a powered phase, then staging (drops mass in ``y``)."""
+    if plan is not None and not phase.ends_stage:
+        _close_segment(problem, plan, k, phase, run, t_sched, exhausted, events, y)
+        return
     kind = dynamics.dynamics_kind(problem.dynamics)
     n = kind.n_states
     vehicle = problem.vehicle

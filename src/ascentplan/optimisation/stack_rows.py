@@ -1,0 +1,70 @@
+"""NLP rows of the vehicle stack's events: booster burnouts, the fairing jettison, restarts.
+
+A phase that ends at a booster burnout lasts exactly the boosters' burn time (from the
+NLP's booster parameters, so that their multipliers price them); a fairing dropped at a
+given time ends its phase at that time from liftoff; a fairing dropped on the heat-flux
+condition leaves the instant to the optimiser, with the flux 1/2 rho v^3 held below the
+bound at every point after it. The stack mass drops at each such event by the casings or
+the fairing.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ascentplan.optimisation.masses import StackMasses, booster_burn_time
+from ascentplan.problem.plan import booster_phase_duration
+
+__all__ = ["add_event_rows", "flux_after_fairing", "mass_after"]
+
+#: scale of event-time rows [s]
+_TIME_SCALE = 100.0
+
+
+def flux_after_fairing(problem, phases, j: int) -> bool:
+    """Whether phase ``j`` flies after a fairing jettison chosen on the heat flux."""
+    fairing = problem.vehicle.fairing
+    if fairing is None or fairing.heat_flux_bound is None:
+        return False
+    return any(ph.drops_fairing for ph in phases[:j])
+
+
+def mass_after(nlp, j: int, masses: StackMasses, end_mass):
+    """Stack mass just after phase ``j`` ends, its mass at the end being ``end_mass``:
+    staging leaves what the stage carries; booster casings and the fairing drop."""
+    ph = nlp.phases[j]
+    if ph.ends_stage and ph.stage < nlp.n_stages - 1:
+        return masses.above[ph.stage]
+    for k in ph.burnouts:
+        end_mass = end_mass - masses.casings[k]
+    if ph.drops_fairing:
+        end_mass = end_mass - masses.fairing
+    return end_mass
+
+
+def _elapsed(nlp, j: int):
+    """Time from liftoff to the end of phase ``j`` [s] (a symbol)."""
+    return sum(nlp.phase_vars[i].duration * nlp.duration_scale[i] for i in range(j + 1))
+
+
+def add_event_rows(nlp, j: int, fairing_flux=None) -> None:
+    """The timing rows of phase ``j`` and, given ``fairing_flux`` (the heat flux at every
+    point of the phase), the fairing's heat-flux rows.
+    """
+    ph = nlp.phases[j]
+    problem = nlp.problem
+    sym = nlp.phase_vars[j]
+    if ph.burnouts:
+        duration = booster_phase_duration(problem, nlp.phases, j,
+                                          booster_burn_time(problem, nlp.parameters))
+        nlp.rows.add(f"booster_burnout{j}",
+                     (sym.duration * nlp.duration_scale[j] - duration) / _TIME_SCALE, 0.0, 0.0)
+    fairing = problem.vehicle.fairing
+    if ph.drops_fairing and fairing.time is not None:
+        nlp.rows.add("fairing_time", (_elapsed(nlp, j) - nlp.parameters.scalar("fairing_time"))
+                     / _TIME_SCALE, 0.0, 0.0)
+    if fairing_flux is not None:
+        bound = nlp.parameters.scalar("fairing_heat_flux")
+        margin = problem.mesh.limit_margin
+        nlp.rows.add(f"fairing_heat_flux{j}", fairing_flux / (bound * (1.0 - margin)),
+                     -np.inf, 1.0)
