@@ -22,6 +22,7 @@ from ascentplan.problem.model import (
     Vehicle,
 )
 from ascentplan.problem.reader import _fmt, _raw, _Reader
+from ascentplan.problem.stack_sections import check_stack
 
 __all__ = ["liftoff_thrust", "site_gravity"]
 
@@ -43,7 +44,11 @@ def liftoff_thrust(vehicle: Vehicle, atmos, launch: Launch) -> tuple[float, floa
     """
     first = vehicle.stages[0]
     pressure = float(atmos.state(launch.altitude).pressure)
-    return first.throttle_max * first.thrust_vacuum - pressure * first.nozzle_exit_area, pressure
+    # the ground-lit boosters of the first stage add their thrust at their settings
+    boosters = sum(g.group_thrust - pressure * g.count * g.nozzle_exit_area
+                   for g in vehicle.groups_of(0) if g.ignition is None)
+    return (first.throttle_max * first.thrust_vacuum - pressure * first.nozzle_exit_area
+            + boosters, pressure)
 
 
 def site_gravity(gravity_model, planet: Planet, launch: Launch) -> float:
@@ -74,6 +79,7 @@ def _cross_checks(r: _Reader, data: dict, parts: _Parts) -> None:
     _check_objective(r, data, parts)
     _check_mass_split(r, data, parts)
     _check_orbit_reach(r, data, parts)
+    check_stack(r, data, parts)
 
 
 def _check_liftoff(r: _Reader, data: dict, p: _Parts) -> None:

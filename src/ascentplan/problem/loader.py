@@ -204,7 +204,7 @@ def problem_from_dict(data: dict, source_path: str | None = None) -> Problem:
 
     vehicle = None
     if payload is not None and stages is not None and None not in stages:
-        vehicle = _build_vehicle(r, payload, stages)
+        vehicle = _build_vehicle(r, payload, stages, data)
     _cross_checks(r, data, _Parts(vehicle, planet, atmos, atmosphere_name, gravity_model,
                                   launch, limits, target, objective, mass_split))
 

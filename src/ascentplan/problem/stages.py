@@ -19,20 +19,28 @@ from ascentplan.problem.model import (
     thrust_from_ratio,
 )
 from ascentplan.problem.reader import _fmt, _join, _kind_of, _Reader
+from ascentplan.problem.stack_sections import (
+    build_groups,
+    read_boosters,
+    read_fairing,
+    read_restarts,
+)
 from ascentplan.problem.units import UnitError, show, to_si
 
-_VEHICLE_KEYS = ("payload_mass", "stages")
+_VEHICLE_KEYS = ("payload_mass", "stages", "fairing")
 _STAGE_KEYS = ("name", "propellant_mass", "dry_mass", "structural_ratio", "thrust_vacuum",
                "thrust_to_weight", "isp_vacuum", "exhaust_speed", "nozzle_exit_area",
                "throttle", "max_throttle_rate", "max_steering_rate", "coast_after",
-               "propellant_min", "propellant_max", "shutdown", "propellant_reserve")
+               "propellant_min", "propellant_max", "shutdown", "propellant_reserve",
+               "boosters", "restarts", "coast_between_burns")
 _THROTTLE_KEYS = ("min", "max")
 #: the fields of a stage as read, passed on to :class:`Stage` unchanged
 _STAGE_FIELDS = ("name", "propellant_mass", "dry_mass", "thrust_vacuum", "exhaust_speed",
                  "nozzle_exit_area", "throttle_min", "throttle_max", "max_throttle_rate",
                  "max_steering_rate", "coast_after", "structural_ratio", "propellant_min",
                  "propellant_max", "thrust_to_weight", "shutdown", "propellant_reserve",
-                 "propellant_reserve_fraction")
+                 "propellant_reserve_fraction", "restarts", "restart_coast_min",
+                 "restart_coast_max")
 #: a thrust given both directly and as thrust-to-weight must agree to this fraction
 _THRUST_AGREEMENT = 0.005
 
@@ -85,6 +93,8 @@ def _read_stage(r: _Reader, raw: Any, path: str, index: int, last: bool) -> dict
                      r.choice(raw, "shutdown", path, tuple(SHUTDOWN_MODES), None,
                               "shutdown mode"))
     s.update(_read_reserve(r, raw, path, s["propellant_mass"]))
+    s.update(read_restarts(r, raw, path))
+    s["boosters"] = read_boosters(r, raw, path)
     if len(r.messages) > before:
         return None
     return s
@@ -188,15 +198,18 @@ def _read_reserve(r: _Reader, raw: dict, path: str, propellant: float | None) ->
     return {"propellant_reserve": mass, "propellant_reserve_fraction": 0.0}
 
 
-def _build_vehicle(r: _Reader, payload: float, stages: list[dict]) -> Vehicle | None:
+def _build_vehicle(r: _Reader, payload: float, stages: list[dict],
+                   data: dict | None = None) -> Vehicle | None:
     """The vehicle from its stages' fields; thrust from thrust_to_weight where needed.
 
     The stack is assembled first with the thrusts as given (None where only a
     thrust-to-weight is), since a ratio's thrust follows from the stack mass at the
     stage's ignition, which only the whole vehicle knows.
     """
+    fairing = read_fairing(r, data, [s["name"] for s in stages]) if data is not None else None
     stack = Vehicle(payload_mass=payload,
-                    stages=tuple(Stage(**{k: s[k] for k in _STAGE_FIELDS}) for s in stages))
+                    stages=tuple(Stage(**{k: s[k] for k in _STAGE_FIELDS}) for s in stages),
+                    boosters=build_groups(stages), fairing=fairing)
     built = []
     for i, (stage, s) in enumerate(zip(stack.stages, stages)):
         if stage.thrust_to_weight is not None:
@@ -211,4 +224,4 @@ def _build_vehicle(r: _Reader, payload: float, stages: list[dict]) -> Vehicle | 
                                    f"mass {_fmt(ignition)} kg; give one, or make them agree")
                 return None
         built.append(stage)
-    return Vehicle(payload_mass=payload, stages=tuple(built))
+    return replace(stack, stages=tuple(built))
