@@ -308,6 +308,9 @@ def _guess_schedule(problem: Problem):
         return None
     rise = problem.launch.vertical_rise
     total = sum(s.full_throttle_burn_time + s.coast_after for s in problem.vehicle.stages)
+    if problem.launch.in_circular_orbit:
+        # in orbit: thrust along the flight path
+        return TimeSchedule(time=(0.0, max(total, 1.0)), throttle=(1.0, 1.0), pitch=(0.0, 0.0))
     return TimeSchedule(time=(0.0, max(rise, 1e-3), max(total, rise + 1.0)),
                         throttle=(1.0, 1.0, 1.0), pitch=(0.5 * np.pi, 0.5 * np.pi, 0.0))
 

@@ -383,7 +383,10 @@ class Planar(DynamicsKind):
     def initial_state(self, problem) -> np.ndarray:
         r0 = problem.planet.radius + problem.launch.altitude
         omega = problem.planet.rotation_rate * np.cos(problem.launch.latitude)
-        return np.array([r0, 0.0, 0.0, omega * r0, problem.vehicle.liftoff_mass])
+        speed = omega * r0
+        if getattr(problem.launch, "in_circular_orbit", False):
+            speed = np.sqrt(problem.planet.gravitational_parameter / r0)
+        return np.array([r0, 0.0, 0.0, speed, problem.vehicle.liftoff_mass])
 
     def state_scales(self, states, problem):
         planet, target = problem.planet, problem.target

@@ -87,7 +87,7 @@ def _check_liftoff(r: _Reader, data: dict, p: _Parts) -> None:
     if p.vehicle is None or p.launch is None:
         return
     first = p.vehicle.stages[0]
-    if None not in (p.atmosphere, p.planet, p.gravity):
+    if None not in (p.atmosphere, p.planet, p.gravity) and not p.launch.in_circular_orbit:
         thrust, pressure = liftoff_thrust(p.vehicle, p.atmosphere, p.launch)
         weight = p.vehicle.liftoff_mass * site_gravity(p.gravity, p.planet, p.launch)
         ratio = thrust / weight

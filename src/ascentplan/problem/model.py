@@ -314,6 +314,15 @@ class Launch:
     azimuth: float | None = None  # [rad]
     direction: str = "northerly"  # or "southerly"
     dog_leg: float = 0.0  # [rad]
+    #: the flight starts in a prograde circular orbit at ``altitude`` instead of on the
+    #: pad (an upper stage from a parking orbit; the planar kind)
+    in_circular_orbit: bool = False
+
+    @property
+    def lowest_altitude(self) -> float:
+        """Altitude below which the flight has hit the ground [m]: the pad, or the
+        planet's surface for a flight that starts in orbit."""
+        return 0.0 if self.in_circular_orbit else self.altitude
 
 
 @dataclass(frozen=True)

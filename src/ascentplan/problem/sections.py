@@ -28,6 +28,7 @@ from ascentplan.problem.model import (
     TimeSchedule,
 )
 from ascentplan.problem.orbit_sections import (
+    _read_flag,
     _read_launch_spatial,
     _read_orbit_target,
     _refuse_gravity_without_position,
@@ -51,7 +52,7 @@ _PLANET_KEYS = ("name", "radius", "gravitational_parameter", "rotation_rate", "s
 _PLANET_SHAPES = ("ellipsoid", "sphere")
 _AERO_KEYS = ("reference_area", "reference_length", "drag", "drag_scale")
 _LAUNCH_KEYS = ("altitude", "latitude", "vertical_rise", "pitch_over", "longitude", "azimuth",
-                "direction", "dog_leg")
+                "direction", "dog_leg", "in_circular_orbit")
 _TARGET_KEYS = ("altitude", "speed", "flight_path_angle", "circular_orbit_altitude",
                 "perigee_altitude", "apogee_altitude", "semi_major_axis", "eccentricity",
                 "inclination", "ascending_node", "argument_of_perigee", "inject_at_perigee")
@@ -316,10 +317,17 @@ def _read_launch(r: _Reader, data: dict, kind: DynamicsKind | None, planet: Plan
                                 le=_HALF_PI, show_unit="deg")
     spatial = _read_launch_spatial(r, section, kind)
     _refuse_gravity_without_position(r, data, kind)
+    in_orbit = False
+    if not _refused_for_kind(r, section, "in_circular_orbit", "launch", kind,
+                             lambda k: k.steered and not k.spatial):
+        in_orbit = _read_flag(r, section, "in_circular_orbit", "launch")
+        if in_orbit and (rise or pitch_over):
+            r.error("launch.in_circular_orbit", "a flight that starts in orbit has no vertical "
+                                                "rise or pitch-over; remove them")
     if None in (altitude, latitude, rise, pitch_over, spatial):
         return None
     return Launch(altitude=altitude, latitude=latitude, vertical_rise=rise,
-                  pitch_over=pitch_over, **spatial)
+                  pitch_over=pitch_over, in_circular_orbit=bool(in_orbit), **spatial)
 
 
 def _limits_in_reading_order():

@@ -132,7 +132,7 @@ def _end_events(problem, plan, k, t0, timed) -> list:
     phase = plan[k]
     kind = dynamics.dynamics_kind(problem.dynamics)
     planet = problem.planet
-    h_impact = problem.launch.altitude - IMPACT_MARGIN
+    h_impact = problem.launch.lowest_altitude - IMPACT_MARGIN
 
     def impact(t, y):
         return kind.altitude(y, planet) - h_impact
@@ -328,6 +328,7 @@ def fly_phase(problem, law, rates, k, phase, t0, y0, options, exhausted, plan=No
         run.ended_by = "apogee"
         return run, prop, t_sched
     timed = t_sched is not None
+    events = _end_events(problem, plan, k, t0, timed)
     if timed:
         t_end = t_sched
     elif phase.powered:
@@ -337,8 +338,7 @@ def fly_phase(problem, law, rates, k, phase, t0, y0, options, exhausted, plan=No
         timed = True
     else:
         t_end = t0 + _coast_cap(problem, y0[:kind.n_states])
-    flight = _Integration(run, k, rates, prop, _end_events(problem, plan, k, t0, timed),
-                          options, t_end, timed)
+    flight = _Integration(run, k, rates, prop, events, options, t_end, timed)
     breaks = np.asarray(law.breaks(k, phase, t0), dtype=float)
     run.rules = []
     for mode, mode_end, switch in law.modes(k, phase, t0):

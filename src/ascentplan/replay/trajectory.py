@@ -192,6 +192,10 @@ class Trajectory:
         k = self._phase_of(t) if phase is None else int(phase)
         return self._augmented_at(k, t)[:len(self.state_names)]
 
+    def state_at_phase_end(self, k: int) -> np.ndarray:
+        """Flight state at the end of phase ``k`` as flown (before any mass dropped there)."""
+        return np.asarray(self._fixed[k][:len(self.state_names)], dtype=float).copy()
+
     def _phase_of(self, t):
         for k in range(len(self.phase_bounds) - 1, -1, -1):
             if self.phase_bounds[k][0] <= t:

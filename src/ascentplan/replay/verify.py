@@ -44,6 +44,7 @@ from ascentplan.problem.limits import LIMITS
 from ascentplan.problem.model import Problem, phase_plan
 from ascentplan.problem.objectives import OBJECTIVE_SPECS, Outcome
 from ascentplan.replay.orbit_check import compare_orbits
+from ascentplan.replay.phase_checks import fairing_flux_check, phase_end_checks
 
 #: tolerance of a flight-path angle target on the replay [deg] (common practice: an
 #: injection angle error of 0.01 deg moves a 200 km perigee by well under a kilometre)
@@ -149,6 +150,10 @@ class Verification:
     burnout_altitude_tolerance_m: float = float("nan")
     #: the burnout orbit as elements, optimiser and replay compared (replay.orbit_check)
     orbit: dict | None = None
+    #: every phase's end, replay against optimiser (replay.phase_checks.PhaseEnd)
+    phase_ends: list = field(default_factory=list)
+    #: the heat flux after a fairing jettison chosen on it, on the replay
+    fairing: dict | None = None
 
 
 def limit_allowance(mesh) -> float:
@@ -328,6 +333,13 @@ def verify(problem: Problem, solution, trajectory) -> Verification:
         if not c.passed:
             reasons.append(f"{c.name} exceeded by {100 * c.excess_fraction:.2f} % of its bound "
                            f"at t = {c.time:.1f} s (allowed {100 * allowed:.2g} %)")
+    phase_ends, phase_reasons = phase_end_checks(problem, solution, trajectory,
+                                                 mesh.speed_tolerance,
+                                                 mesh.speed_tolerance_fraction,
+                                                 ALTITUDE_TOLERANCE_M)
+    reasons += phase_reasons
+    fairing, fairing_reasons = fairing_flux_check(problem, trajectory, allowed)
+    reasons += fairing_reasons
     used = None
     if problem.objective == "min_propellant":
         used = _propellant_used(problem, trajectory)
@@ -345,7 +357,8 @@ def verify(problem: Problem, solution, trajectory) -> Verification:
                         burnout_speed_tolerance_m_s=float(v_tol),
                         burnout_altitude_tolerance_m=float(h_tol),
                         objective_independently_replayed=independently_replayed(
-                            problem, trajectory), orbit=orbit_compared)
+                            problem, trajectory), orbit=orbit_compared,
+                        phase_ends=phase_ends, fairing=fairing)
 
 
 def independently_replayed(problem: Problem, trajectory) -> bool:
