@@ -90,8 +90,8 @@ def test_restart_needs_a_coast_range_that_makes_sense():
     with pytest.raises(ProblemError, match="coast_between_burns: min must not exceed max"):
         problem_from_dict(doc)
     doc = _transfer_doc(30.0)
-    del doc["vehicle"]["stages"][0]["restarts"]
-    with pytest.raises(ProblemError, match="has no effect without restarts"):
+    doc["vehicle"]["stages"][0]["restarts"] = 1.5
+    with pytest.raises(ProblemError, match="restarts: expected a whole number"):
         problem_from_dict(doc)
 
 

@@ -342,6 +342,26 @@ def _three_dimensional_section(data):
     return lines + [""] + _goal_lines(data.get("goals", []))
 
 
+def _stack_section(data):
+    lines = ["## Vehicle stacks: booster ascents", "", f"Regenerate: `{data['command']}`",
+             ""] + _machine_lines(data)
+    lines += ["Cold `solve()` in fresh interpreters (imports excluded), 40 nodes per phase, "
+              "medians over the repetitions: the four-phase variant of "
+              "problems/booster_launcher.yaml (ground-lit pair only, no fairing: vertical rise, "
+              "boosters with the core, the core alone, the upper stage) and the example itself "
+              "(two booster pairs and a heat-flux fairing: six phases).", ""]
+    lines += _table(["variant", "phases", "variables", "status", "verified", "iterations",
+                     "payload [kg]", "wall [s]", "CPU [s]", "build [s]", "IPOPT [s]",
+                     "Hessian [s]"],
+                    [[r.get("variant"), r.get("phases", "-"), r.get("variables", "-"),
+                      r.get("status", r.get("error")), r.get("verified", "-"),
+                      r.get("iterations", "-"), r.get("objective_kg", "-"),
+                      r.get("wall_time_s", "-"), r.get("cpu_time_s", "-"),
+                      r.get("build_s", "-"), r.get("t_wall_total", "-"),
+                      r.get("t_wall_nlp_hess_l", "-")] for r in data["rows"]])
+    return lines + [""] + _goal_lines(data.get("goals", []))
+
+
 def _study_section(data):
     lines = ["## Trade study on one and two workers", "",
              "Regenerate: `python tests/benchmarks/bench_study.py`", ""] + _machine_lines(data)
@@ -384,7 +404,8 @@ _SECTIONS = (("examples.json", _examples_section), ("scaling.json", _scaling_sec
              ("baseline.json", _baseline_section), ("split.json", _split_section),
              ("memory.json", _memory_section), ("exchange.json", _exchange_section),
              ("3d.json", _three_dimensional_section),
-             ("study.json", _study_section), ("outputs.json", _outputs_section))
+             ("study.json", _study_section), ("outputs.json", _outputs_section),
+             ("stack.json", _stack_section))
 
 
 def finish(name: str, data: dict, quick: bool) -> int:

@@ -35,8 +35,6 @@ def read_restarts(r: _Reader, raw: dict, path: str) -> dict:
     if lo is not None and hi is not None and lo > hi:
         r.error(cpath, f"min must not exceed max, got min {show(coast['min'])} > max "
                        f"{show(coast.get('max'))}")
-    if coast is not None and not restarts:
-        r.error(cpath, "has no effect without restarts (the number of burns after the first)")
     return {"restarts": restarts or 0, "restart_coast_min": lo, "restart_coast_max": hi}
 
 
