@@ -216,3 +216,45 @@ def test_replay_flies_every_event_where_the_optimiser_put_it():
     assert events["fairing_jettison"] == pytest.approx(140.0, abs=1e-6)
     starts = np.cumsum(result.solution.durations)
     assert events["staging"] == pytest.approx(starts[-2], abs=1e-3)
+
+
+def test_stack_split_without_boosters_is_the_closed_form_serial_optimum():
+    # the Lagrange-multiplier optimum of serial staging (Curtis, section 11.6; from
+    # memory), in closed form in ascentplan.staging.rocket_equation
+    from ascentplan import load_problem
+    from ascentplan.staging.parallel import best_stack_split, stack_delta_v
+    from ascentplan.staging.rocket_equation import split_for_vehicle
+
+    vehicle = load_problem(EXAMPLES / "medium_launcher.yaml").vehicle
+    for hold in ("liftoff_mass", "payload"):
+        closed, numeric = split_for_vehicle(vehicle, hold=hold), best_stack_split(vehicle,
+                                                                                  hold=hold)
+        assert numeric.propellant_mass == pytest.approx(closed.propellant_mass, rel=1e-5)
+        assert numeric.total_delta_v == pytest.approx(closed.total_delta_v, rel=1e-9)
+        assert numeric.multiplier == pytest.approx(closed.multiplier, rel=1e-4)
+    assert sum(stack_delta_v(vehicle)) == pytest.approx(sum(
+        s.exhaust_speed * math.log(vehicle.ignition_mass(i) / vehicle.burnout_mass(i))
+        for i, s in enumerate(vehicle.stages)), rel=1e-12)
+
+
+def test_split_of_a_stack_frees_the_booster_propellant_the_file_frees():
+    from ascentplan.staging.coupled import solve_with_split_comparison
+
+    doc = yaml.safe_load((EXAMPLES / "booster_launcher.yaml").read_text())
+    doc["vehicle"].pop("fairing")
+    doc["vehicle"]["stages"][0]["boosters"][0]["propellant_max"] = "40 t"
+    doc.update({"target": {"altitude": "250 km", "flight_path_angle": "0 deg"},
+                "objective": "max_burnout_speed", "mass_split": {"hold": "liftoff_mass"},
+                "mesh": {"nodes_per_phase": 20}})
+    problem = problem_from_dict(doc)
+    result = solve_with_split_comparison(problem)
+    assert result.status == "optimal", result.message
+    info = result.extra["mass_split"]
+    # the coupled optimum is at least as good as the numerical rocket-equation split flown
+    assert info["coupled_objective"] >= info["rocket_equation_split_flown_objective"] - 1e-6
+    assert info["coupled_liftoff_mass_kg"] == pytest.approx(problem.vehicle.liftoff_mass,
+                                                            rel=1e-9)
+    freed, held = result.solved_problem.vehicle.boosters
+    assert freed.propellant_mass != pytest.approx(30e3, rel=1e-3)
+    assert freed.dry_mass / freed.propellant_mass == pytest.approx(3.4 / 30.0, rel=1e-9)
+    assert held.propellant_mass == pytest.approx(24e3, rel=1e-12)

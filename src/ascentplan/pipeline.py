@@ -285,8 +285,9 @@ def _with_solution_masses(problem: Problem, solution: NLPSolution) -> Problem:
     structural ratios, thrusts a given thrust-to-weight ratio)."""
     if problem.mass_split is None and not payload_is_free(problem):
         return problem
-    vehicle = problem.vehicle.with_propellant(solution.propellant,
-                                              payload_mass=solution.payload_mass)
+    vehicle = problem.vehicle.with_propellant(
+        solution.propellant, payload_mass=solution.payload_mass,
+        booster_propellant=solution.booster_propellant if problem.vehicle.boosters else None)
     return replace(problem, vehicle=vehicle)
 
 

@@ -80,7 +80,9 @@ def guess_from_solution(problem: Problem, solution, nodes_per_phase: int) -> Gue
         multipliers = solution.multipliers
     return Guess(durations=durations, states=states, controls=controls,
                  payload_mass=solution.payload_mass, propellant=list(solution.propellant),
-                 multipliers=multipliers)
+                 multipliers=multipliers,
+                 booster_propellant=list(getattr(solution, "booster_propellant", []) or [])
+                 or None)
 
 
 def scales_for(problem: Problem, guess: Guess) -> dict:

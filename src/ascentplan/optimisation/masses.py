@@ -38,6 +38,9 @@ class StackMasses:
         Per stage, the stack mass at its burnout with its propellant reserve on board.
     casings : list of symbol
         Per booster group, the dry mass of the whole group, dropped at its burnout.
+    booster_propellant : list of symbol
+        Per booster group, the propellant per booster (a decision variable where a split
+        frees it).
     fairing : symbol
         The fairing mass (0 without a fairing).
     """
@@ -52,6 +55,7 @@ class StackMasses:
     planned_burnout: list
     casings: list
     fairing: object
+    booster_propellant: list
 
 
 def payload_is_free(problem: Problem) -> bool:
@@ -123,16 +127,40 @@ def unscaled_drag(problem: Problem) -> Problem:
     return replace(problem, aerodynamics=replace(problem.aerodynamics, drag_scale=1.0))
 
 
-def booster_burn_time(problem: Problem, params):
-    """``burn_time(group)`` of the groups from the NLP's parameters [s] (symbols)."""
+def booster_burn_time(problem: Problem, params, masses: StackMasses):
+    """``burn_time(group)`` of the groups from the NLP's parameters and booster
+    propellant [s] (symbols)."""
     index = {id(g): k for k, g in enumerate(problem.vehicle.boosters)}
 
     def burn_time(group):
         k = index[id(group)]
         flow = (group.throttle * params.entries("booster_thrust")[k]
                 / params.entries("booster_exhaust_speed")[k])
-        return params.entries("booster_propellant")[k] / flow
+        return masses.booster_propellant[k] / flow
     return burn_time
+
+
+def _booster_propellant(problem: Problem, variables, params, mass_scale: float):
+    """Per group the propellant per booster and the casing per booster: parameters, or in a
+    split a decision variable where the group gives propellant bounds (the casing then
+    follows its ratio as written)."""
+    groups = problem.vehicle.boosters
+    prop, dry = list(params.entries("booster_propellant")), list(params.entries("booster_dry"))
+    if problem.mass_split is None:
+        return prop, dry
+    free = [k for k, g in enumerate(groups) if g.frees_propellant]
+    if not free:
+        return prop, dry
+    lo, hi = _PROPELLANT_RANGE
+    lower = [(groups[k].propellant_min or lo * groups[k].propellant_mass) / mass_scale
+             for k in free]
+    upper = [(groups[k].propellant_max or hi * groups[k].propellant_mass) / mass_scale
+             for k in free]
+    scaled = variables.add("booster_propellant", (len(free), 1), lower, upper)
+    for i, k in enumerate(free):
+        prop[k] = scaled[i] * mass_scale
+        dry[k] = groups[k].casing_ratio * prop[k]
+    return prop, dry
 
 
 def engine_inputs(problem: Problem, params, masses: StackMasses, phase):
@@ -207,7 +235,7 @@ def add_stack_masses(problem: Problem, variables, params, mass_scale: float) -> 
     else:
         dry = structure
     veh = problem.vehicle
-    b_prop, b_dry = params.entries("booster_propellant"), params.entries("booster_dry")
+    b_prop, b_dry = _booster_propellant(problem, variables, params, mass_scale)
     casings = [g.count * b_dry[k] for k, g in enumerate(veh.boosters)]
     attached = [0.0] * len(veh.stages)
     for k, g in enumerate(veh.boosters):
@@ -229,4 +257,5 @@ def add_stack_masses(problem: Problem, variables, params, mass_scale: float) -> 
                                                      propellant)]
     return StackMasses(payload=payload, propellant=propellant, dry=dry, above=above,
                        ignition=ignition, burnout=burnout, thrust=thrust,
-                       planned_burnout=planned, casings=casings, fairing=fairing)
+                       planned_burnout=planned, casings=casings, fairing=fairing,
+                       booster_propellant=b_prop)

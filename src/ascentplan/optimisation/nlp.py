@@ -50,7 +50,13 @@ from ascentplan.optimisation.phases import (
 )
 from ascentplan.optimisation.smoothing import control_smoothness
 from ascentplan.optimisation.solution import Guess, NLPSolution
-from ascentplan.optimisation.stack_rows import add_event_rows, flux_after_fairing, mass_after
+from ascentplan.optimisation.stack_rows import (
+    add_event_rows,
+    flux_after_fairing,
+    free_booster_guess,
+    mass_after,
+    stack_structure,
+)
 from ascentplan.problem.model import Problem, phase_plan
 from ascentplan.problem.objectives import OBJECTIVE_SPECS, Outcome
 
@@ -111,12 +117,7 @@ def structure_key(problem: Problem) -> tuple:
          s.propellant_max, s.may_shut_down_early, s.restarts, s.restart_coast_min,
          s.restart_coast_max)
         for s in problem.vehicle.stages)
-    # the plan fixes the phases (booster events, fairing, restarts); the groups' counts
-    # and settings and the fairing's rule are not parameters
-    stages += (tuple(phase_plan(problem)),
-               tuple((g.stage, g.count, g.throttle, g.ignition) for g in problem.vehicle.boosters),
-               None if problem.vehicle.fairing is None else (
-                   problem.vehicle.fairing.stage, problem.vehicle.fairing.time is None))
+    stages += stack_structure(problem)
     return (problem.dynamics, problem.planet, problem.atmosphere, problem.gravity,
             unscaled_drag(problem).aerodynamics, problem.launch, stages,
             tuple(problem.limits.active_names()),
@@ -248,7 +249,7 @@ class AscentNLP:
         self._add_throttle_rate(j, stage, U, h)
         self._link(j, masses)
         self._add_phase_end(j, masses)
-        add_event_rows(self, j, Q[len(specs), :] if flux else None)
+        add_event_rows(self, j, masses, Q[len(specs), :] if flux else None)
 
     def _collocate(self, j: int, stage, Xc, h, masses: StackMasses, quantities):
         """Collocation rows of phase ``j``; returns the path quantities at every point.
@@ -448,7 +449,8 @@ class AscentNLP:
         self.iterations_done = 0
         self.mass_function = ca.Function(
             "masses", [self.w, self.P],
-            [masses.payload, ca.vertcat(*masses.propellant), ca.vertcat(*masses.dry)])
+            [masses.payload, ca.vertcat(*masses.propellant), ca.vertcat(*masses.dry),
+             ca.vertcat(*masses.booster_propellant)])
         self.g_function = ca.Function("g", [self.w, self.P], [self.g])
 
     def accelerate(self, max_variables: int = ACCELERATE_MAX_VARIABLES) -> bool:
@@ -513,6 +515,9 @@ class AscentNLP:
             values["split_scale"] = 1.0
         if "propellant" in self.variables:
             values["propellant"] = np.asarray(guess.propellant, float) / self.mass_scale
+        if "booster_propellant" in self.variables:
+            values["booster_propellant"] = free_booster_guess(self.problem, guess,
+                                                              self.mass_scale)
         self.conditions.fill(values)
         for j in range(len(self.phases)):
             X = (np.asarray(guess.states[j]) - self.x_offset[:, None]) / self.x_scale[:, None]
@@ -566,7 +571,7 @@ class AscentNLP:
         starts = np.concatenate([[0.0], np.cumsum(durations)[:-1]])
         times = [t + d * np.linspace(0.0, 1.0, n)
                  for t, d, n in zip(starts, durations, self.nodes)]
-        payload, prop, dry = (np.array(v).ravel() for v in self.mass_function(w, pvec))
+        payload, prop, dry, boosters = (np.array(v).ravel() for v in self.mass_function(w, pvec))
         # envelope theorem: lam_p = -d f*/d p; objective J = -sense * scale * f
         to_objective = self.objective_sense * self.objective_scale
         shadow = {name: float(to_objective * lam_p[i])
@@ -586,6 +591,7 @@ class AscentNLP:
             objective=float(objective), smoothing_penalty=float(penalty),
             durations=durations, times=times, states=states, controls=controls,
             payload_mass=float(payload[0]), propellant=list(prop), dry=list(dry),
+            booster_propellant=list(boosters),
             shadow_prices=shadow, constraint_violation=viol,
             sensitivities={k: to_objective * v for k, v in self.parameters.split(lam_p).items()},
             multipliers={"lam_x": lam_x, "lam_g": lam_g, "lam_p": lam_p},

@@ -50,6 +50,8 @@ class Guess:
     payload_mass: float
     propellant: list
     multipliers: dict | None = None
+    #: per booster group, the propellant per booster [kg]; None: as the vehicle is written
+    booster_propellant: list | None = None
 
 
 @dataclass
@@ -81,6 +83,8 @@ class NLPSolution:
     #: the control-smoothness penalty at the solution, in the objective's SI unit (0 when
     #: ``mesh.control_smoothing`` is 0); :attr:`objective` does not include it
     smoothing_penalty: float = 0.0
+    #: per booster group, the propellant per booster [kg] (a split may choose it)
+    booster_propellant: list = field(default_factory=list)
 
     @staticmethod
     def status_of(return_status: str, success: bool, violation: float) -> str:

@@ -13,9 +13,10 @@ from __future__ import annotations
 import numpy as np
 
 from ascentplan.optimisation.masses import StackMasses, booster_burn_time
-from ascentplan.problem.plan import booster_phase_duration
+from ascentplan.problem.plan import booster_phase_duration, phase_plan
 
-__all__ = ["add_event_rows", "flux_after_fairing", "mass_after"]
+__all__ = ["add_event_rows", "flux_after_fairing", "free_booster_guess", "mass_after",
+           "stack_structure"]
 
 #: scale of event-time rows [s]
 _TIME_SCALE = 100.0
@@ -47,7 +48,7 @@ def _elapsed(nlp, j: int):
     return sum(nlp.phase_vars[i].duration * nlp.duration_scale[i] for i in range(j + 1))
 
 
-def add_event_rows(nlp, j: int, fairing_flux=None) -> None:
+def add_event_rows(nlp, j: int, masses: StackMasses, fairing_flux=None) -> None:
     """The timing rows of phase ``j`` and, given ``fairing_flux`` (the heat flux at every
     point of the phase), the fairing's heat-flux rows.
     """
@@ -56,7 +57,7 @@ def add_event_rows(nlp, j: int, fairing_flux=None) -> None:
     sym = nlp.phase_vars[j]
     if ph.burnouts:
         duration = booster_phase_duration(problem, nlp.phases, j,
-                                          booster_burn_time(problem, nlp.parameters))
+                                          booster_burn_time(problem, nlp.parameters, masses))
         nlp.rows.add(f"booster_burnout{j}",
                      (sym.duration * nlp.duration_scale[j] - duration) / _TIME_SCALE, 0.0, 0.0)
     fairing = problem.vehicle.fairing
@@ -68,3 +69,22 @@ def add_event_rows(nlp, j: int, fairing_flux=None) -> None:
         margin = problem.mesh.limit_margin
         nlp.rows.add(f"fairing_heat_flux{j}", fairing_flux / (bound * (1.0 - margin)),
                      -np.inf, 1.0)
+
+
+def stack_structure(problem) -> tuple:
+    """What of the stack fixes the NLP's structure: the phase plan (booster events, the
+    fairing, restarts), the groups' counts, settings, ignitions and freed propellant, and
+    the fairing's rule; the masses, thrusts and bounds are parameters."""
+    fairing = problem.vehicle.fairing
+    return (tuple(phase_plan(problem)),
+            tuple((g.stage, g.count, g.throttle, g.ignition, g.propellant_min,
+                   g.propellant_max) for g in problem.vehicle.boosters),
+            None if fairing is None else (fairing.stage, fairing.time is None))
+
+
+def free_booster_guess(problem, guess, mass_scale: float) -> np.ndarray:
+    """Scaled first values of the booster propellant a split frees: the guess's, else as
+    written."""
+    groups = problem.vehicle.boosters
+    given = guess.booster_propellant or [g.propellant_mass for g in groups]
+    return np.array([p for g, p in zip(groups, given) if g.frees_propellant]) / mass_scale

@@ -239,15 +239,23 @@ class Vehicle:
         """Stack mass when stage ``index`` has burnt all but its reserve [kg]."""
         return self.burnout_mass(index) + self.stages[index].reserve_mass
 
-    def with_propellant(self, propellant: list[float], payload_mass: float | None = None):
+    def with_propellant(self, propellant: list[float], payload_mass: float | None = None,
+                        booster_propellant=None):
         """A copy with new propellant masses; dry masses follow the structural ratios
-        (as given, else as the masses are written), thrusts a given thrust-to-weight."""
+        (as given, else as the masses are written), thrusts a given thrust-to-weight;
+        ``booster_propellant`` (per group, per booster) likewise with each group's casing
+        ratio as written."""
         stages = []
         for s, mp in zip(self.stages, propellant):
             dry = dry_mass_from_ratio(mp, s.ratio_of_structure)
             stages.append(replace(s, propellant_mass=float(mp), dry_mass=float(dry)))
         payload = self.payload_mass if payload_mass is None else float(payload_mass)
-        vehicle = replace(self, payload_mass=payload, stages=tuple(stages))
+        boosters = self.boosters
+        if booster_propellant is not None:
+            boosters = tuple(replace(g, propellant_mass=float(p),
+                                     dry_mass=float(g.casing_ratio * p))
+                             for g, p in zip(self.boosters, booster_propellant))
+        vehicle = replace(self, payload_mass=payload, stages=tuple(stages), boosters=boosters)
         scaled = []
         for i, s in enumerate(vehicle.stages):
             if s.thrust_to_weight is not None:

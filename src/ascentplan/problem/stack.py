@@ -51,6 +51,19 @@ class BoosterGroup:
     nozzle_exit_area: float = 0.0
     throttle: float = 1.0
     ignition: str | None = None
+    #: bounds on the propellant per booster in a stage-mass split [kg]; either given frees
+    #: it (the casing then follows its ratio to the propellant as written)
+    propellant_min: float | None = None
+    propellant_max: float | None = None
+
+    @property
+    def frees_propellant(self) -> bool:
+        return self.propellant_min is not None or self.propellant_max is not None
+
+    @property
+    def casing_ratio(self) -> float:
+        """Dry over propellant mass per booster, as written [-]."""
+        return self.dry_mass / self.propellant_mass
 
     @property
     def isp_vacuum(self) -> float:

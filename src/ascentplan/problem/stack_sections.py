@@ -17,7 +17,8 @@ __all__ = ["BOOSTER_KEYS", "FAIRING_KEYS", "check_stack", "read_boosters", "read
            "read_restarts"]
 
 BOOSTER_KEYS = ("name", "count", "propellant_mass", "dry_mass", "thrust_vacuum", "isp_vacuum",
-                "exhaust_speed", "nozzle_exit_area", "throttle", "ignition", "burn_time")
+                "exhaust_speed", "nozzle_exit_area", "throttle", "ignition", "burn_time",
+                "propellant_min", "propellant_max")
 FAIRING_KEYS = ("mass", "jettison_time", "jettison_heat_flux", "during")
 _COAST_KEYS = ("min", "max")
 #: a burn time given beside the thrust must agree with it to this fraction
@@ -94,6 +95,12 @@ def _read_group(r: _Reader, g: dict, path: str, i: int, earlier: list) -> dict:
                                          f"(air-lit at that group's burnout), got {show(ignition)}")
         out["ignition"] = None
     out["thrust_vacuum"] = _read_group_thrust(r, g, path, out)
+    out["propellant_min"] = r.quantity(g, "propellant_min", path, "kg", gt=0.0)
+    out["propellant_max"] = r.quantity(g, "propellant_max", path, "kg", gt=0.0)
+    lo, hi, mp = out["propellant_min"], out["propellant_max"], out["propellant_mass"]
+    if mp is not None and ((lo is not None and mp < lo) or (hi is not None and mp > hi)):
+        r.error(_join(path, "propellant_mass"), f"must lie within propellant_min.."
+                                                f"propellant_max, got {show(g['propellant_mass'])}")
     return out
 
 
@@ -140,7 +147,8 @@ def build_groups(stages: list[dict]) -> tuple[BoosterGroup, ...]:
                 name=g["name"], stage=i, count=g["count"], propellant_mass=g["propellant_mass"],
                 dry_mass=g["dry_mass"], thrust_vacuum=g["thrust_vacuum"],
                 exhaust_speed=g["exhaust_speed"], nozzle_exit_area=g["nozzle_exit_area"],
-                throttle=g["throttle"], ignition=g["ignition"]))
+                throttle=g["throttle"], ignition=g["ignition"],
+                propellant_min=g["propellant_min"], propellant_max=g["propellant_max"]))
     return tuple(out)
 
 
@@ -174,8 +182,7 @@ def read_fairing(r: _Reader, data: dict, stage_names: list[str]) -> Fairing | No
 
 
 def check_stack(r: _Reader, data: dict, p) -> None:
-    """Booster burnouts after the vertical rise and before the core runs dry; no split of
-    a stack with boosters; a fairing time within reach."""
+    """Booster burnouts after the vertical rise and before the core runs dry."""
     v = p.vehicle
     if v is None or not v.boosters:
         return
@@ -195,7 +202,3 @@ def check_stack(r: _Reader, data: dict, p) -> None:
         if i == 0 and p.launch is not None and first <= p.launch.vertical_rise:
             r.error("launch.vertical_rise", f"must end before the first booster burnout at "
                                             f"{first:.1f} s, got {_fmt(p.launch.vertical_rise)} s")
-    if p.mass_split is not None:
-        r.error("mass_split", "a stage-mass split of a vehicle with strap-on boosters is not "
-                              "supported: the rocket-equation split assumes serial stages; "
-                              "remove mass_split or the boosters")

@@ -20,6 +20,7 @@ import numpy as np
 from ascentplan.pipeline import Result, solve
 from ascentplan.problem.model import Problem, Vehicle
 from ascentplan.problem.objectives import OBJECTIVE_SPECS
+from ascentplan.staging.parallel import best_stack_split
 from ascentplan.staging.rocket_equation import StageSplit, optimal_split, split_for_vehicle
 
 #: a rocket-equation stage this small (fraction of its written propellant) is kept at it,
@@ -39,6 +40,10 @@ def rocket_equation_split(problem: Problem) -> StageSplit:
     split = problem.mass_split
     if split is None:
         raise ValueError("mass_split: the problem has no stage-mass split")
+    if veh.boosters or veh.fairing is not None:
+        # parallel staging (or a fairing dropped mid-burn): no closed form; found
+        # numerically, the booster groups held as written
+        return best_stack_split(veh, liftoff_mass=split.liftoff_mass, hold=split.hold)
     if split.hold == "liftoff_mass":
         held = split.liftoff_mass if split.liftoff_mass is not None else veh.liftoff_mass
         return optimal_split([s.exhaust_speed for s in veh.stages],
@@ -99,6 +104,11 @@ def solve_with_split_comparison(problem: Problem, *, map_points: int | None = No
             "written_propellant_mass_kg": float(s.propellant_mass),
         })
     info = {
+        "boosters": [{"name": g.name, "written_propellant_mass_kg": float(g.propellant_mass),
+                      "coupled_propellant_mass_kg": float(c.propellant_mass),
+                      "coupled_dry_mass_kg": float(c.dry_mass)}
+                     for g, c in zip(problem.vehicle.boosters,
+                                     coupled.solved_problem.vehicle.boosters)],
         "hold": problem.mass_split.hold,
         "objective_unit": unit,
         "rocket_equation_split_flown_objective": fixed.solution.objective / div,
