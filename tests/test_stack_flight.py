@@ -9,6 +9,7 @@ shadow price of the fairing's heat-flux bound.
 
 from __future__ import annotations
 
+import copy
 import math
 from pathlib import Path
 
@@ -258,3 +259,29 @@ def test_split_of_a_stack_frees_the_booster_propellant_the_file_frees():
     assert freed.propellant_mass != pytest.approx(30e3, rel=1e-3)
     assert freed.dry_mass / freed.propellant_mass == pytest.approx(3.4 / 30.0, rel=1e-9)
     assert held.propellant_mass == pytest.approx(24e3, rel=1e-12)
+
+
+def test_exchange_ratios_of_booster_and_fairing_inputs_match_central_differences():
+    from ascentplan.exchange import exchange_ratios
+
+    doc = yaml.safe_load((EXAMPLES / "booster_launcher.yaml").read_text())
+    doc["mesh"] = {"nodes_per_phase": 20}
+    base = solve(problem_from_dict(doc))
+    assert base.status == "optimal", base.message
+    ratios = {e["input"]: e["value"] for e in exchange_ratios(base.problem, base.solution,
+                                                              base.limits())}
+    checks = {
+        ("vehicle.stages[0].boosters[1].propellant_mass", "propellant_mass", 24e3, 300.0),
+        ("vehicle.fairing.mass", "mass", 1400.0, 50.0),
+    }
+    for key, field, value, step in checks:
+        objectives = []
+        for d in (-step, step):
+            changed = copy.deepcopy(doc)
+            where = (changed["vehicle"]["stages"][0]["boosters"][1] if "boosters" in key
+                     else changed["vehicle"]["fairing"])
+            where[field] = f"{value + d} kg"
+            objectives.append(solve(problem_from_dict(changed), warm_start=base)
+                              .solution.objective)
+        central = (objectives[1] - objectives[0]) / (2 * step)
+        assert ratios[key] == pytest.approx(central, rel=0.02), key

@@ -124,7 +124,12 @@ def _stage_rule_gradients(problem: Problem, sens: dict) -> dict:
             fields.append((i, "dry_mass", s.dry_mass))
         inputs.append(sym)
         values.append(fields[-1][2])
-    _, ignition, _ = stack_masses(payload, [prop[i] for i in range(n)], dry)
+    veh = problem.vehicle
+    fairing = veh.fairing
+    _, ignition, _ = stack_masses(payload, [prop[i] for i in range(n)], dry,
+                                  [veh.attached_mass(i) for i in range(n)],
+                                  0.0 if fairing is None else fairing.mass,
+                                  None if fairing is None else fairing.stage)
     thrust = []
     for i, s in enumerate(stages):
         if s.thrust_to_weight is not None:
@@ -186,6 +191,40 @@ def _stage_inputs(problem: Problem, sens: dict) -> list[ExchangeInput]:
     return out
 
 
+def _stack_inputs(problem: Problem, sens: dict) -> list[ExchangeInput]:
+    """Each booster group's inputs (per booster) and the fairing's."""
+    out = []
+    split = problem.mass_split is not None
+    for k, g in enumerate(problem.vehicle.boosters):
+        stage_index = g.stage
+        index = problem.vehicle.groups_of(stage_index).index(g)
+        path = f"vehicle.stages[{stage_index}].boosters[{index}]"
+        who = f"boosters '{g.name}' (per booster)"
+        if not (split and g.frees_propellant):
+            out.append(ExchangeInput(f"{path}.propellant_mass", f"{who} propellant mass", "kg",
+                                     1.0, float(sens["booster_propellant"][k])))
+            out.append(ExchangeInput(f"{path}.dry_mass", f"{who} dry mass", "kg", 1.0,
+                                     float(sens["booster_dry"][k])))
+        out.append(ExchangeInput(f"{path}.thrust_vacuum", f"{who} vacuum thrust", "kN", 1e3,
+                                 float(sens["booster_thrust"][k])))
+        out.append(ExchangeInput(f"{path}.isp_vacuum", f"{who} vacuum Isp", "s", G0,
+                                 float(sens["booster_exhaust_speed"][k])))
+        out.append(ExchangeInput(f"{path}.nozzle_exit_area", f"{who} nozzle exit area", "m^2",
+                                 1.0, float(sens["booster_exit_area"][k])))
+    fairing = problem.vehicle.fairing
+    if fairing is not None:
+        out.append(ExchangeInput("vehicle.fairing.mass", "fairing mass", "kg", 1.0,
+                                 float(sens["fairing_mass"][0])))
+        if fairing.time is not None:
+            out.append(ExchangeInput("vehicle.fairing.jettison_time", "fairing jettison time",
+                                     "s", 1.0, float(sens["fairing_time"][0])))
+        else:
+            out.append(ExchangeInput("vehicle.fairing.jettison_heat_flux",
+                                     "fairing jettison heat-flux bound", "W/m^2", 1.0,
+                                     float(sens["fairing_heat_flux"][0])))
+    return out
+
+
 def exchange_inputs(problem: Problem, sensitivities: dict) -> list[ExchangeInput]:
     """The priced inputs of ``problem`` (limits aside), from the NLP's parameter
     sensitivities (:attr:`NLPSolution.sensitivities`, d objective / d parameter, SI).
@@ -195,7 +234,7 @@ def exchange_inputs(problem: Problem, sensitivities: dict) -> list[ExchangeInput
     """
     from ascentplan.optimisation.masses import payload_is_free
 
-    out = _stage_inputs(problem, sensitivities)
+    out = _stage_inputs(problem, sensitivities) + _stack_inputs(problem, sensitivities)
     split = problem.mass_split
     if payload_is_free(problem):
         out = [e for e in out if e.key != "vehicle.payload_mass"]
