@@ -30,6 +30,11 @@ def ideal_delta_v(vehicle: Vehicle) -> list[float]:
     list of float
         One increment per stage, first stage first [m s^-1].
     """
+    if vehicle.boosters or vehicle.fairing is not None:
+        # parallel staging: phase by phase, the mass-flow-weighted exhaust speed
+        from ascentplan.staging.parallel import stack_delta_v
+
+        return stack_delta_v(vehicle)
     return [s.exhaust_speed * math.log(vehicle.ignition_mass(i) / vehicle.burnout_mass(i))
             for i, s in enumerate(vehicle.stages)]
 
@@ -147,6 +152,34 @@ def _stage_lines(v: Vehicle, mass: _MassText) -> list[str]:
     lines.append(f"  liftoff mass {mass(v.liftoff_mass)} {mass.unit}; total ideal velocity "
                  f"increment {sum(dv):.1f} m/s")
     lines.extend(_stage_notes(v, i, mass) for i in range(len(v.stages)))
+    return lines + _stack_lines(v, mass)
+
+
+def _stack_lines(v: Vehicle, mass: _MassText) -> list[str]:
+    """The booster groups (per booster) and the fairing, when the vehicle has them."""
+    lines = []
+    if v.boosters:
+        lines += ["", "Booster groups (figures per booster; burn time at the group's setting):"]
+        rows = [["group", "of stage", "count", f"propellant [{mass.unit}]",
+                 f"dry [{mass.unit}]", "thrust vac [kN]", "Isp vac [s]", "setting",
+                 "ignition", "burn [s]"]]
+        for g in v.boosters:
+            rows.append([g.name, v.stages[g.stage].name, str(g.count), mass(g.propellant_mass),
+                         mass(g.dry_mass), f"{g.thrust_vacuum / 1e3:.2f}",
+                         f"{g.isp_vacuum:.1f}", f"{g.throttle:.2f}",
+                         "with the core" if g.ignition is None else f"after {g.ignition}",
+                         f"{g.burn_time:.1f}"])
+        lines.extend(_table(rows, right={2, 3, 4, 5, 6, 7, 9}))
+    f = v.fairing
+    if f is not None:
+        when = (f"at {f.time:.1f} s" if f.time is not None else
+                f"once the heat flux 1/2 rho v^3 stays below {f.heat_flux_bound:.1f} W/m^2")
+        lines += ["", f"Fairing: {mass(f.mass)} {mass.unit}, dropped during the burn of "
+                      f"{v.stages[f.stage].name} {when}"]
+    restarts = [s for s in v.stages if s.restarts]
+    for s in restarts:
+        lines.append(f"Restarts: {s.name} burns {s.restarts + 1} times, each coast between "
+                     f"{s.restart_coast_min:.0f} and {s.restart_coast_max:.0f} s")
     return lines
 
 
