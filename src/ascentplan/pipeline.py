@@ -257,6 +257,9 @@ class Result:
             d["orbit"] = self.verification.orbit
         if self.infeasibility is not None:
             d["infeasibility"] = self.infeasibility.summary()
+        from ascentplan.output.timeline import stack_summary
+
+        d.update(stack_summary(self))  # the timeline and the mass accounting
         d.update(self.extra)
         return d
 
@@ -452,6 +455,7 @@ def format_result(result: Result) -> str:
         target_lines,
         verification_lines,
     )
+    from ascentplan.output.timeline_text import stack_lines
 
     s = result.summary()
     b = s["burnout"]
@@ -480,6 +484,7 @@ def format_result(result: Result) -> str:
         # where the solver stopped short of a flight, its propellant figures mean little
         lines += _propellant_lines(s["stages"])
     lines += _infeasibility_lines(s.get("infeasibility"))
+    lines += stack_lines(s)
     lines += budget_lines(s.get("losses_m_s"))
     lines += split_lines(s.get("mass_split"))
     sv = s["solver"]
