@@ -15,7 +15,7 @@ from pathlib import Path
 from ascentplan import __version__
 from ascentplan.cautions import CAUTION
 from ascentplan.output.atomic import write_text
-from ascentplan.output.report import details, verdict
+from ascentplan.output.report import details, timeline, verdict
 from ascentplan.output.report.markup import STYLE, caution_box, esc, section, words
 from ascentplan.output.report.problem import problem_section
 
@@ -29,7 +29,7 @@ _KNOWN_KEYS = {"problem", "dynamics", "status", "message", "objective", "burnout
                "limits", "verification", "stages", "payload_mass_kg", "liftoff_mass_kg",
                "solver", "losses_m_s", "peaks", "phases", "events", "caution", "mass_split",
                "infeasibility", "inputs", "provenance", "exchange_ratios", "target_miss",
-               "control_smoothing"}
+               "control_smoothing", "timeline", "mass_accounting"}
 
 #: PNG file stems in the order the report shows them (overview first) when the plots
 #: module does not publish its own order; others follow
@@ -93,12 +93,13 @@ def _other_section(summary: dict) -> str:
 
 
 #: the sections in reading order: the verdict and what must give first, then the
-#: results, the stage masses and their propellant together, the inputs restated, the
-#: solver's detail and anything unknown last
+#: results, the stage masses and their propellant together, the timeline and the mass
+#: accounting, the inputs restated, the solver's detail and anything unknown last
 _SECTIONS = (verdict.status_box, verdict.must_give_section, verdict.objective_section,
              verdict.flight_section, verdict.limits_section, verdict.verification_section,
              verdict.exchange_ratios_section, details.stages_section,
-             details.propellant_section, details.losses_section, details.split_section,
+             details.propellant_section, timeline.timeline_section, timeline.mass_section,
+             details.losses_section, details.split_section,
              problem_section, details.solver_section, details.smoothing_section,
              details.peaks_section,
              details.phases_section, details.events_section, _other_section)
