@@ -9,7 +9,7 @@ optimum, a flight that is not a solution, or a simulation of a given schedule.
 from __future__ import annotations
 
 from concurrent.futures import ThreadPoolExecutor
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 import numpy as np
@@ -18,7 +18,7 @@ from ascentplan.cautions import CAUTION
 from ascentplan.output.atomic import atomic_open
 
 __all__ = ["DPI", "EVENT_KINDS", "EventKind", "PngWriter", "caution_line", "event_kind",
-           "save_png", "stamp_figure", "status_stamp"]
+           "event_name", "save_png", "stamp_figure", "status_stamp"]
 
 #: resolution of every PNG [dots per inch]
 DPI = 150
@@ -79,15 +79,18 @@ def stamp_figure(fig, text: str, good: bool) -> None:
 
 @dataclass(frozen=True)
 class EventKind:
-    """How one kind of event is drawn and named in the legend."""
+    """How one kind of event is drawn, named in the legend, and labelled beside its line
+    (``short``; the kind's own words when None)."""
 
     legend: str
     style: dict
+    short: str | None = None
 
 
 #: the events of a replay by kind (``replay.simulate`` records), each drawn and named its
 #: own way: a burnout is a burn ending as planned, a flameout a stage running dry before
-#: its scheduled end, staging the drop of the spent stage
+#: its scheduled end, staging the drop of the spent stage; the vehicle stack's events
+#: (booster groups, fairing, cut-offs and restarts) are named short beside their lines
 EVENT_KINDS = {
     "burnout": EventKind("burnout (a burn ends as scheduled)",
                          dict(color="0.3", linewidth=1.0, linestyle=":")),
@@ -98,14 +101,41 @@ EVENT_KINDS = {
     "apogee": EventKind("apogee", dict(color="tab:olive", linewidth=1.0,
                                        linestyle=(0, (1, 3)))),
     "impact": EventKind("impact", dict(color="black", linewidth=1.2, linestyle="-")),
+    "booster_burnout": EventKind("booster burnout (casings dropped)",
+                                 dict(color="tab:orange", linewidth=1.0, linestyle="--"),
+                                 "boosters out"),
+    "booster_ignition": EventKind("booster ignition (air-lit group)",
+                                  dict(color="tab:red", linewidth=1.0, linestyle=(0, (3, 2))),
+                                  "boosters lit"),
+    "fairing_jettison": EventKind("fairing jettison",
+                                  dict(color="tab:cyan", linewidth=1.0, linestyle="-."),
+                                  "fairing"),
+    "cutoff": EventKind("cut-off (coast before a restart)",
+                        dict(color="tab:blue", linewidth=1.0, linestyle=(0, (2, 2))), "cut-off"),
+    "restart": EventKind("restart", dict(color="tab:green", linewidth=1.0,
+                                         linestyle=(0, (6, 2, 1, 2))), "restart"),
 }
 
 
 def event_kind(kind: str) -> EventKind:
     """How an event of ``kind`` is drawn; a kind not listed is named as recorded."""
     if kind in EVENT_KINDS:
-        return EVENT_KINDS[kind]
-    return EventKind(kind.replace("_", " "), dict(color="0.5", linewidth=1.0, linestyle=":"))
+        drawn = EVENT_KINDS[kind]
+        return drawn if drawn.short else replace(drawn, short=kind.replace("_", " "))
+    return EventKind(kind.replace("_", " "), dict(color="0.5", linewidth=1.0, linestyle=":"),
+                     kind.replace("_", " "))
+
+
+def event_name(event: dict, stages) -> str | None:
+    """What an event's label names: a booster group's name, else its stage's (none for
+    an apogee)."""
+    if event.get("group"):
+        return str(event["group"])
+    stage = event.get("stage")
+    if isinstance(stage, (int, np.integer)) and 0 <= stage < len(stages) \
+            and event.get("kind") != "apogee":
+        return stages[stage].name
+    return None
 
 
 def save_png(fig, path: Path, writer: PngWriter | None = None) -> None:

@@ -26,6 +26,7 @@ from ascentplan.output.figure_marks import (
     DPI,
     PngWriter,
     event_kind,
+    event_name,
     save_png,
     stamp_figure,
     status_stamp,
@@ -223,9 +224,8 @@ def _event_marks(problem: Problem, trajectory) -> list[tuple[float, str, list[st
         if kind == "liftoff":
             continue
         time = float(ev["time"])
-        stage = ev.get("stage")
-        name = (printable(stages[stage].name) if isinstance(stage, (int, np.integer))
-                and 0 <= stage < len(stages) and kind != "apogee" else None)
+        name = event_name(ev, stages)
+        name = None if name is None else printable(name)
         if not groups or time - groups[-1][0] > _EVENT_MERGE_FRACTION * span:
             groups.append((time, [], []))
         _, kinds, names = groups[-1]
@@ -233,7 +233,7 @@ def _event_marks(problem: Problem, trajectory) -> list[tuple[float, str, list[st
             kinds.append(kind)
         if name is not None and name not in names:
             names.append(name)
-    return [(time, " + ".join(k.replace("_", " ") for k in kinds)
+    return [(time, " + ".join(event_kind(k).short for k in kinds)
              + (f" ({', '.join(names)})" if names else ""), kinds)
             for time, kinds, names in groups]
 
