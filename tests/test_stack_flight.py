@@ -285,3 +285,18 @@ def test_exchange_ratios_of_booster_and_fairing_inputs_match_central_differences
                               .solution.objective)
         central = (objectives[1] - objectives[0]) / (2 * step)
         assert ratios[key] == pytest.approx(central, rel=0.02), key
+
+
+def test_a_booster_throttle_range_lets_the_optimiser_choose_one_setting():
+    doc = yaml.safe_load((EXAMPLES / "booster_launcher.yaml").read_text())
+    doc["vehicle"]["stages"][0]["boosters"][0]["throttle"] = {"min": 0.6, "max": 1.0}
+    doc["mesh"] = {"nodes_per_phase": 20}
+    result = solve(problem_from_dict(doc))
+    assert result.status == "optimal", result.message
+    group = result.solved_problem.vehicle.boosters[0]
+    assert 0.6 <= group.throttle <= 1.0
+    # the group's burn time follows its setting: propellant over its mass flow
+    flow = group.count * group.throttle * group.thrust_vacuum / group.exhaust_speed
+    burnout = next(e["time"] for e in result.trajectory.events
+                   if e["kind"] == "booster_burnout")
+    assert burnout == pytest.approx(group.count * group.propellant_mass / flow, rel=1e-6)

@@ -20,6 +20,7 @@ from ascentplan.optimisation.infeasibility import Infeasibility, explain
 from ascentplan.optimisation.masses import payload_is_free
 from ascentplan.optimisation.nlp import AscentNLP, NLPSolution, structure_key
 from ascentplan.optimisation.propellant import propellant_accounting, residual_text
+from ascentplan.optimisation.stack_rows import with_booster_settings
 from ascentplan.problem.limits import LIMITS
 from ascentplan.problem.model import Problem, phase_plan
 from ascentplan.problem.objectives import OBJECTIVE_SPECS, OBJECTIVE_UNITS
@@ -286,6 +287,7 @@ def _replay(problem: Problem, solution: NLPSolution):
 def _with_solution_masses(problem: Problem, solution: NLPSolution) -> Problem:
     """The problem with the optimised payload and propellant masses (dry masses follow the
     structural ratios, thrusts a given thrust-to-weight ratio)."""
+    problem = with_booster_settings(problem, solution.booster_setting)
     if problem.mass_split is None and not payload_is_free(problem):
         return problem
     vehicle = problem.vehicle.with_propellant(

@@ -41,6 +41,9 @@ class StackMasses:
     booster_propellant : list of symbol
         Per booster group, the propellant per booster (a decision variable where a split
         frees it).
+    booster_setting : list of symbol
+        Per booster group, its throttle setting (a decision variable where the group gives
+        a range).
     fairing : symbol
         The fairing mass (0 without a fairing).
     """
@@ -56,6 +59,7 @@ class StackMasses:
     casings: list
     fairing: object
     booster_propellant: list
+    booster_setting: list
 
 
 def payload_is_free(problem: Problem) -> bool:
@@ -134,10 +138,24 @@ def booster_burn_time(problem: Problem, params, masses: StackMasses):
 
     def burn_time(group):
         k = index[id(group)]
-        flow = (group.throttle * params.entries("booster_thrust")[k]
+        flow = (masses.booster_setting[k] * params.entries("booster_thrust")[k]
                 / params.entries("booster_exhaust_speed")[k])
         return masses.booster_propellant[k] / flow
     return burn_time
+
+
+def _booster_settings(problem: Problem, variables) -> list:
+    """Per group its throttle setting: fixed, or a decision variable within its range."""
+    groups = problem.vehicle.boosters
+    settings = [g.throttle for g in groups]
+    free = [k for k, g in enumerate(groups) if g.frees_setting]
+    if free:
+        chosen = variables.add("booster_setting", (len(free), 1),
+                               [groups[k].throttle_min for k in free],
+                               [groups[k].throttle_max for k in free])
+        for i, k in enumerate(free):
+            settings[k] = chosen[i]
+    return settings
 
 
 def _booster_propellant(problem: Problem, variables, params, mass_scale: float):
@@ -172,7 +190,7 @@ def engine_inputs(problem: Problem, params, masses: StackMasses, phase):
     thrust, flow, area = 0.0, 0.0, 0.0
     for k in phase.boosters:
         g = problem.vehicle.boosters[k]
-        f = g.count * g.throttle * params.entries("booster_thrust")[k]
+        f = g.count * masses.booster_setting[k] * params.entries("booster_thrust")[k]
         thrust = thrust + f
         flow = flow + f / params.entries("booster_exhaust_speed")[k]
         area = area + g.count * params.entries("booster_exit_area")[k]
@@ -258,4 +276,5 @@ def add_stack_masses(problem: Problem, variables, params, mass_scale: float) -> 
     return StackMasses(payload=payload, propellant=propellant, dry=dry, above=above,
                        ignition=ignition, burnout=burnout, thrust=thrust,
                        planned_burnout=planned, casings=casings, fairing=fairing,
-                       booster_propellant=b_prop)
+                       booster_propellant=b_prop,
+                       booster_setting=_booster_settings(problem, variables))

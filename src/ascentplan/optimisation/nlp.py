@@ -53,8 +53,8 @@ from ascentplan.optimisation.solution import Guess, NLPSolution
 from ascentplan.optimisation.stack_rows import (
     add_event_rows,
     flux_after_fairing,
-    free_booster_guess,
     mass_after,
+    stack_guess,
     stack_structure,
 )
 from ascentplan.problem.model import Problem, phase_plan
@@ -450,7 +450,7 @@ class AscentNLP:
         self.mass_function = ca.Function(
             "masses", [self.w, self.P],
             [masses.payload, ca.vertcat(*masses.propellant), ca.vertcat(*masses.dry),
-             ca.vertcat(*masses.booster_propellant)])
+             ca.vertcat(*masses.booster_propellant), ca.vertcat(*masses.booster_setting)])
         self.g_function = ca.Function("g", [self.w, self.P], [self.g])
 
     def accelerate(self, max_variables: int = ACCELERATE_MAX_VARIABLES) -> bool:
@@ -515,9 +515,7 @@ class AscentNLP:
             values["split_scale"] = 1.0
         if "propellant" in self.variables:
             values["propellant"] = np.asarray(guess.propellant, float) / self.mass_scale
-        if "booster_propellant" in self.variables:
-            values["booster_propellant"] = free_booster_guess(self.problem, guess,
-                                                              self.mass_scale)
+        values.update(stack_guess(self.problem, guess, self.variables, self.mass_scale))
         self.conditions.fill(values)
         for j in range(len(self.phases)):
             X = (np.asarray(guess.states[j]) - self.x_offset[:, None]) / self.x_scale[:, None]
@@ -571,7 +569,8 @@ class AscentNLP:
         starts = np.concatenate([[0.0], np.cumsum(durations)[:-1]])
         times = [t + d * np.linspace(0.0, 1.0, n)
                  for t, d, n in zip(starts, durations, self.nodes)]
-        payload, prop, dry, boosters = (np.array(v).ravel() for v in self.mass_function(w, pvec))
+        payload, prop, dry, boosters, settings = (np.array(v).ravel()
+                                                  for v in self.mass_function(w, pvec))
         # envelope theorem: lam_p = -d f*/d p; objective J = -sense * scale * f
         to_objective = self.objective_sense * self.objective_scale
         shadow = {name: float(to_objective * lam_p[i])
@@ -591,7 +590,7 @@ class AscentNLP:
             objective=float(objective), smoothing_penalty=float(penalty),
             durations=durations, times=times, states=states, controls=controls,
             payload_mass=float(payload[0]), propellant=list(prop), dry=list(dry),
-            booster_propellant=list(boosters),
+            booster_propellant=list(boosters), booster_setting=list(settings),
             shadow_prices=shadow, constraint_violation=viol,
             sensitivities={k: to_objective * v for k, v in self.parameters.split(lam_p).items()},
             multipliers={"lam_x": lam_x, "lam_g": lam_g, "lam_p": lam_p},

@@ -85,6 +85,8 @@ class NLPSolution:
     smoothing_penalty: float = 0.0
     #: per booster group, the propellant per booster [kg] (a split may choose it)
     booster_propellant: list = field(default_factory=list)
+    #: per booster group, its throttle setting [-] (chosen where the group gives a range)
+    booster_setting: list = field(default_factory=list)
 
     @staticmethod
     def status_of(return_status: str, success: bool, violation: float) -> str:

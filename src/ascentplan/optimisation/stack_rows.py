@@ -15,8 +15,8 @@ import numpy as np
 from ascentplan.optimisation.masses import StackMasses, booster_burn_time
 from ascentplan.problem.plan import booster_phase_duration, phase_plan
 
-__all__ = ["add_event_rows", "flux_after_fairing", "free_booster_guess", "mass_after",
-           "stack_structure"]
+__all__ = ["add_event_rows", "flux_after_fairing", "mass_after", "stack_guess",
+           "stack_structure", "with_booster_settings"]
 
 #: scale of event-time rows [s]
 _TIME_SCALE = 100.0
@@ -77,14 +77,35 @@ def stack_structure(problem) -> tuple:
     the fairing's rule; the masses, thrusts and bounds are parameters."""
     fairing = problem.vehicle.fairing
     return (tuple(phase_plan(problem)),
-            tuple((g.stage, g.count, g.throttle, g.ignition, g.propellant_min,
-                   g.propellant_max) for g in problem.vehicle.boosters),
+            tuple((g.stage, g.count, None if g.frees_setting else g.throttle, g.ignition,
+                   g.propellant_min, g.propellant_max, g.throttle_min, g.throttle_max)
+                  for g in problem.vehicle.boosters),
             None if fairing is None else (fairing.stage, fairing.time is None))
 
 
-def free_booster_guess(problem, guess, mass_scale: float) -> np.ndarray:
-    """Scaled first values of the booster propellant a split frees: the guess's, else as
-    written."""
+def stack_guess(problem, guess, variables, mass_scale: float) -> dict:
+    """Scaled first values of the stack's decision variables: the booster propellant a
+    split frees (the guess's, else as written) and the booster settings the optimiser
+    chooses (as the vehicle has them)."""
     groups = problem.vehicle.boosters
-    given = guess.booster_propellant or [g.propellant_mass for g in groups]
-    return np.array([p for g, p in zip(groups, given) if g.frees_propellant]) / mass_scale
+    out = {}
+    if "booster_propellant" in variables:
+        given = guess.booster_propellant or [g.propellant_mass for g in groups]
+        out["booster_propellant"] = np.array(
+            [p for g, p in zip(groups, given) if g.frees_propellant]) / mass_scale
+    if "booster_setting" in variables:
+        out["booster_setting"] = np.array([g.throttle for g in groups if g.frees_setting])
+    return out
+
+
+def with_booster_settings(problem, settings):
+    """The problem with the booster settings the optimiser chose (groups with a range)."""
+    from dataclasses import replace
+
+    groups = problem.vehicle.boosters
+    if not any(g.frees_setting for g in groups) or len(settings) != len(groups):
+        return problem
+    # IPOPT may pass a bound by its tolerance: the setting flown stays within the range
+    chosen = tuple(replace(g, throttle=float(min(max(s, g.throttle_min), g.throttle_max)))
+                   if g.frees_setting else g for g, s in zip(groups, settings))
+    return replace(problem, vehicle=replace(problem.vehicle, boosters=chosen))

@@ -18,7 +18,7 @@ from ascentplan.cautions import CAUTION
 from ascentplan.output.atomic import atomic_open
 
 __all__ = ["DPI", "EVENT_KINDS", "EventKind", "PngWriter", "caution_line", "event_kind",
-           "event_name", "save_png", "stamp_figure", "status_stamp"]
+           "event_name", "label_rows", "save_png", "stamp_figure", "status_stamp"]
 
 #: resolution of every PNG [dots per inch]
 DPI = 150
@@ -102,17 +102,18 @@ EVENT_KINDS = {
                                        linestyle=(0, (1, 3)))),
     "impact": EventKind("impact", dict(color="black", linewidth=1.2, linestyle="-")),
     "booster_burnout": EventKind("booster burnout (casings dropped)",
-                                 dict(color="tab:orange", linewidth=1.0, linestyle="--"),
+                                 dict(color="tab:pink", linewidth=1.1, linestyle="--"),
                                  "boosters out"),
     "booster_ignition": EventKind("booster ignition (air-lit group)",
-                                  dict(color="tab:red", linewidth=1.0, linestyle=(0, (3, 2))),
+                                  dict(color="darkgoldenrod", linewidth=1.0,
+                                       linestyle=(0, (3, 2))),
                                   "boosters lit"),
     "fairing_jettison": EventKind("fairing jettison",
                                   dict(color="tab:cyan", linewidth=1.0, linestyle="-."),
                                   "fairing"),
     "cutoff": EventKind("cut-off (coast before a restart)",
-                        dict(color="tab:blue", linewidth=1.0, linestyle=(0, (2, 2))), "cut-off"),
-    "restart": EventKind("restart", dict(color="tab:green", linewidth=1.0,
+                        dict(color="navy", linewidth=1.0, linestyle=(0, (2, 2))), "cut-off"),
+    "restart": EventKind("restart", dict(color="darkgreen", linewidth=1.0,
                                          linestyle=(0, (6, 2, 1, 2))), "restart"),
 }
 
@@ -136,6 +137,48 @@ def event_name(event: dict, stages) -> str | None:
             and event.get("kind") != "apogee":
         return stages[stage].name
     return None
+
+
+#: a label's character width, as a fraction of its font size (DejaVu Sans runs about
+#: 0.55; the margin keeps neighbours apart)
+_CHAR_WIDTH = 0.62
+#: most rows of event labels above a panel's data
+MAX_LABEL_ROWS = 3
+
+
+def label_rows(events, x0: float, x1: float, width_pt: float,
+               fontsize: float = 7.0) -> list[int]:
+    """A row for each event label (0 the top row), in time order, so that labels in one
+    row do not overlap: each takes the first row where it fits, else the row where it
+    overlaps least, among :data:`MAX_LABEL_ROWS`.
+
+    Parameters
+    ----------
+    events : list of (time [s], label, kinds)
+    x0, x1 : float
+        The time axis' limits [s].
+    width_pt : float
+        The axes' width [pt].
+    fontsize : float
+        The labels' font size [pt].
+
+    A label is written right of its line in the left half of the axes and left of it in
+    the right half, 3 pt from the line; its width is estimated from its length.
+    """
+    span = max(x1 - x0, 1e-12)
+    taken: list[list[tuple[float, float]]] = [[] for _ in range(MAX_LABEL_ROWS)]
+    rows = []
+    for time, label, _kinds in events:
+        width = (len(label) * _CHAR_WIDTH * fontsize + 3.0) / max(width_pt, 1.0) * span
+        right_half = (time - x0) > 0.5 * span
+        left, right = (time - width, time) if right_half else (time, time + width)
+        overlap = [sum(max(0.0, min(right, b) - max(left, a)) for a, b in taken[r])
+                   for r in range(MAX_LABEL_ROWS)]
+        free = [r for r in range(MAX_LABEL_ROWS) if overlap[r] == 0.0]
+        row = free[0] if free else min(range(MAX_LABEL_ROWS), key=overlap.__getitem__)
+        taken[row].append((left, right))
+        rows.append(row)
+    return rows
 
 
 def save_png(fig, path: Path, writer: PngWriter | None = None) -> None:

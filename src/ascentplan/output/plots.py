@@ -27,6 +27,7 @@ from ascentplan.output.figure_marks import (
     PngWriter,
     event_kind,
     event_name,
+    label_rows,
     save_png,
     stamp_figure,
     status_stamp,
@@ -289,13 +290,15 @@ def _draw_panel(ax, problem: Problem, trajectory, panel: _Panel, node_values, ev
 def _label_events(ax, events) -> None:
     """Event names in a band added above the data, so that they never hide a curve."""
     low, high = ax.get_ylim()
-    ax.set_ylim(low, high + _EVENT_BAND * (high - low) / (1.0 - _EVENT_BAND))
     x0, x1 = ax.get_xlim()
+    # close events take further rows so that their labels stay legible
+    rows = label_rows(events, x0, x1, ax.get_position().width * ax.figure.get_figwidth() * 72)
+    band = _EVENT_BAND + 0.065 * max(0, max(rows) - 1)
+    ax.set_ylim(low, high + band * (high - low) / (1.0 - band))
     for i, (time, label, _kinds) in enumerate(events):
         # left of the line in the right half, right of it in the left half: stays inside
         right_half = (time - x0) > 0.5 * (x1 - x0)
-        # successive labels alternate between two rows so that close events stay legible
-        y = 0.985 - 0.065 * (i % 2)
+        y = 0.985 - 0.065 * rows[i]
         ax.annotate(label, xy=(time, y), xycoords=ax.get_xaxis_transform(),
                     xytext=(-3 if right_half else 3, 0), textcoords="offset points",
                     ha="right" if right_half else "left", va="top", fontsize=7,

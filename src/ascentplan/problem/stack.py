@@ -35,7 +35,10 @@ class BoosterGroup:
     nozzle_exit_area : float
         Per booster [m^2].
     throttle : float
-        The fixed throttle setting the group burns at [-].
+        The throttle setting the group burns at, constant over its burn [-].
+    throttle_min, throttle_max : float or None
+        A range for the setting: the optimiser chooses one setting in it (the group's
+        burn time follows); None: the setting is fixed at ``throttle``.
     ignition : str or None
         None: the group ignites with its core stage (ground-lit on the first stage);
         else the name of the group of the same stage at whose burnout it ignites.
@@ -55,6 +58,14 @@ class BoosterGroup:
     #: it (the casing then follows its ratio to the propellant as written)
     propellant_min: float | None = None
     propellant_max: float | None = None
+    throttle_min: float | None = None
+    throttle_max: float | None = None
+
+    @property
+    def frees_setting(self) -> bool:
+        """Whether the optimiser chooses the group's setting within its range."""
+        return (self.throttle_min is not None and self.throttle_max is not None
+                and self.throttle_min < self.throttle_max)
 
     @property
     def frees_propellant(self) -> bool:

@@ -79,7 +79,7 @@ def _read_group(r: _Reader, g: dict, path: str, i: int, earlier: list) -> dict:
     out["exhaust_speed"] = G0 * isp if isp is not None else speed
     out["nozzle_exit_area"] = r.quantity(g, "nozzle_exit_area", path, "m^2", default=0.0,
                                          ge=0.0)
-    out["throttle"] = _read_setting(r, g, path)
+    out.update(_read_setting(r, g, path))
     ignition = g.get("ignition", "liftoff")
     if ignition in (None, "liftoff", "with_core"):
         out["ignition"] = None
@@ -104,19 +104,22 @@ def _read_group(r: _Reader, g: dict, path: str, i: int, earlier: list) -> dict:
     return out
 
 
-def _read_setting(r: _Reader, g: dict, path: str):
-    """The group's fixed throttle setting: a number, or ``{max: x}`` or ``{min: x, max: x}``."""
+def _read_setting(r: _Reader, g: dict, path: str) -> dict:
+    """The group's throttle setting: a number (fixed), or ``{min: x, max: y}``, a range in
+    which the optimiser chooses one setting for the whole burn (a lone max is fixed)."""
     value = g.get("throttle")
     if isinstance(value, dict):
         tpath = _join(path, "throttle")
         r.keys(value, tpath, ("min", "max"))
         hi = r.quantity(value, "max", tpath, "", default=1.0, gt=0.0, le=1.0)
         lo = r.quantity(value, "min", tpath, "", default=hi, gt=0.0, le=1.0)
-        if lo is not None and hi is not None and lo != hi:
-            r.error(tpath, f"boosters burn at one fixed setting (their burn times set the "
-                           f"phases); give min equal to max or one value, got {show(value)}")
-        return hi
-    return r.quantity(g, "throttle", path, "", default=1.0, gt=0.0, le=1.0)
+        if lo is not None and hi is not None and lo > hi:
+            r.error(tpath, f"min must not exceed max, got {show(value)}")
+        ranged = lo is not None and hi is not None and lo < hi
+        return {"throttle": hi, "throttle_min": lo if ranged else None,
+                "throttle_max": hi if ranged else None}
+    fixed = r.quantity(g, "throttle", path, "", default=1.0, gt=0.0, le=1.0)
+    return {"throttle": fixed, "throttle_min": None, "throttle_max": None}
 
 
 def _read_group_thrust(r: _Reader, g: dict, path: str, out: dict):
@@ -148,7 +151,8 @@ def build_groups(stages: list[dict]) -> tuple[BoosterGroup, ...]:
                 dry_mass=g["dry_mass"], thrust_vacuum=g["thrust_vacuum"],
                 exhaust_speed=g["exhaust_speed"], nozzle_exit_area=g["nozzle_exit_area"],
                 throttle=g["throttle"], ignition=g["ignition"],
-                propellant_min=g["propellant_min"], propellant_max=g["propellant_max"]))
+                propellant_min=g["propellant_min"], propellant_max=g["propellant_max"],
+                throttle_min=g["throttle_min"], throttle_max=g["throttle_max"]))
     return tuple(out)
 
 
