@@ -403,7 +403,9 @@ def _overview_figure(problem: Problem, trajectory, nodes=None, *, stamp=None,
         handles.append(Line2D([], [], **_BOUND_STYLE, label="imposed limit"))
     handles += [Line2D([], [], **event_kind(k).style, label=event_kind(k).legend)
                 for k in _event_kinds(events)]
-    fig.legend(handles=handles, loc="lower center", ncols=min(len(handles), 4), fontsize=9,
+    # up to five columns, so that a stack's many kinds of event fit in two rows
+    fig.legend(handles=handles, loc="lower center", fontsize=9,
+               ncols=min(len(handles), max(4, -(-len(handles) // 2)), 5),
                frameon=False, bbox_to_anchor=(0.5, 0.22 / fig.get_size_inches()[1]))
     _stamp(fig, problem, stamp or _simulation_stamp(trajectory),
            f"{printable(problem.name)}: {problem.dynamics} ascent", centred=True)
