@@ -227,3 +227,40 @@ def test_a_single_stage_flight_has_a_short_timeline():
     assert block["final_mass_kg"] + block["propellant_burnt_kg"] == pytest.approx(
         block["liftoff_mass_kg"], rel=1e-9)
     assert np.isfinite(block["closure_kg"])
+
+
+def test_a_flight_from_orbit_starts_in_orbit_and_coasts_between_its_burns():
+    # an invented transfer stage in a 300 km circular orbit, burn-coast-burn to 1000 km
+    doc = {
+        "name": "transfer", "dynamics": "planar", "planet": "earth", "atmosphere": "vacuum",
+        "gravity": "inverse_square",
+        "aerodynamics": {"reference_area": "1 m^2", "drag": {"model": "constant", "cd": 0.3}},
+        "vehicle": {"payload_mass": "1000 kg", "stages": [{
+            "name": "transfer stage", "propellant_mass": "400 kg", "dry_mass": "200 kg",
+            "thrust_vacuum": "20 kN", "isp_vacuum": "320 s",
+            "throttle": {"min": 0.0, "max": 1.0}, "restarts": 1,
+            "coast_between_burns": {"min": "60 s", "max": "2 h"}}]},
+        "launch": {"altitude": "300 km", "in_circular_orbit": True},
+        "target": {"circular_orbit_altitude": "1000 km"},
+        "objective": "min_propellant", "mesh": {"nodes_per_phase": 15},
+    }
+    result = solve(problem_from_dict(doc))
+    assert result.status == "optimal", result.message
+    s = result.summary()
+    entries = s["timeline"]
+    assert [e["kind"] for e in entries] == ["liftoff", "cutoff", "coast", "restart", "burnout"]
+    assert entries[0]["label"] == "start in orbit: transfer stage ignites"
+    coast = entries[2]
+    # the coast lasts what the optimiser chose, within the file's bounds
+    assert 60.0 <= coast["duration_s"] <= 7200.0
+    assert coast["duration_s"] == pytest.approx(coast["optimiser_duration_s"],
+                                                abs=TIME_TOLERANCE_S)
+    block = s["mass_accounting"]
+    assert block["jettisoned"] == []
+    # the stage's residual at the cut-off is what its second burn burns
+    [cutoff, burnout] = block["residuals"]
+    second = block["phases"][2]["burnt_kg"][0]
+    assert cutoff["propellant_remaining_kg"] - burnout["propellant_remaining_kg"] == (
+        pytest.approx(second, rel=1e-9))
+    assert cutoff["replay_propellant_remaining_kg"] == pytest.approx(
+        cutoff["propellant_remaining_kg"], abs=1e-3)

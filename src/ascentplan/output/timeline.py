@@ -132,6 +132,10 @@ class _Builder:
         kind, k = ev["kind"], int(ev["phase"])
         if kind == "liftoff":
             self.add("liftoff", ev["time"], 0, 0, ev, 0.0, groups=self.groups_with_core(0))
+            if getattr(self.problem.launch, "in_circular_orbit", False):
+                # a flight that starts in orbit (an upper stage from a parking orbit)
+                self.entries[-1]["label"] = self.entries[-1]["label"].replace(
+                    "liftoff:", "start in orbit:", 1)
             return
         if kind == "flameout" and self._is_burnout_too(ev):
             # ran dry at its scheduled end within the verification's time tolerance (the
