@@ -48,6 +48,7 @@ from ascentplan.optimisation.phases import (
     node_function,
     nodes_for_phase,
 )
+from ascentplan.optimisation.point_derivatives import PointCalls, structured_derivatives
 from ascentplan.optimisation.smoothing import control_smoothness
 from ascentplan.optimisation.solution import Guess, NLPSolution
 from ascentplan.problem.model import Problem, phase_plan
@@ -185,6 +186,7 @@ class AscentNLP:
         self.rows = ConstraintRows()
         self.conditions = (SoftRows(self.rows, self.variables) if self.elastic
                            else HardRows(self.rows))
+        self.points = PointCalls()
         masses = add_stack_masses(self.problem, self.variables, self.parameters,
                                   self.mass_scale)
         self.phase_vars: list[_PhaseSymbols] = []
@@ -251,7 +253,7 @@ class AscentNLP:
         off, sc = self.x_offset[:, None], self.x_scale[:, None]
         engine = engine_inputs(self.parameters, masses, ph)
         point = node_function(self.model, quantities)
-        F_nodes, Q_nodes = point.map(N)(sym.physical, U, engine)
+        F_nodes, Q_nodes = self.points.call(point, N, sym.physical, U, engine)
         Fs = F_nodes / sc  # scaled state derivative per physical second
         Xk, Xk1 = X[:, :-1], X[:, 1:]
         Fk, Fk1 = Fs[:, :-1], Fs[:, 1:]
@@ -260,7 +262,7 @@ class AscentNLP:
             self.rows.add(f"midpoints{j}",
                           Xc - self.scheme.midpoint_state(Xk, Xk1, Fk, Fk1, h), 0.0, 0.0)
             Uc = 0.5 * (U[:, :-1] + U[:, 1:])
-            F_mid, Q_mid = point.map(N - 1)(off + sc * Xc, Uc, engine)
+            F_mid, Q_mid = self.points.call(point, N - 1, off + sc * Xc, Uc, engine)
             Fc = F_mid / sc
             Q = ca.horzcat(Q_nodes, Q_mid)
         self.rows.add(f"defects{j}", self.scheme.defect(Xk, Xk1, Fk, Fk1, Fc, h), 0.0, 0.0)
@@ -430,9 +432,13 @@ class AscentNLP:
         self._nlp = {"x": self.w, "p": self.P, "f": self.f, "g": self.g}
         self.conditions.finish(self.w, self.P)
         self._options = {**IPOPT_OPTIONS, **ELASTIC_OPTIONS} if self.elastic else IPOPT_OPTIONS
-        self.solver = ca.nlpsol("ascent", "ipopt", self._nlp, self._options)
+        # the Hessian and the constraint Jacobian assembled point by point, when the NLP
+        # has that structure (point_derivatives)
+        self._derivative_options = structured_derivatives(
+            self.points, self.w, self.P, self.f, self.g) or {}
+        self.solver = ca.nlpsol("ascent", "ipopt", self._nlp,
+                                {**self._options, **self._derivative_options})
         self.warm_solver = None
-        self._derivative_options = {}
         self.accelerated = False
         self.accelerate_time = 0.0
         # solves and IPOPT iterations so far: what the derivative expansion is weighed on
