@@ -15,7 +15,12 @@ from ascentplan.cautions import CAUTION
 from ascentplan.exchange import exchange_lines, exchange_ratios
 from ascentplan.models.dynamics import altitude_speed_fpa, dynamics_kind
 from ascentplan.optimisation.fallback import solve_with_fallback
-from ascentplan.optimisation.guess import guess_from_solution, guess_from_trajectory, scales_for
+from ascentplan.optimisation.guess import (
+    coarse_start,
+    guess_from_solution,
+    guess_from_trajectory,
+    scales_for,
+)
 from ascentplan.optimisation.infeasibility import Infeasibility, explain
 from ascentplan.optimisation.masses import payload_is_free
 from ascentplan.optimisation.nlp import AscentNLP, NLPSolution, structure_key
@@ -329,6 +334,13 @@ def first_guess(problem: Problem, nodes: int):
     return guess, scales_for(problem, guess)
 
 
+def _cold_solve(problem: Problem, nodes: int) -> NLPSolution:
+    """The NLP of ``problem`` on ``nodes`` per phase solved from the default first guess."""
+    guess, scales = first_guess(problem, nodes)
+    nlp, _ = NLP_CACHE.get(problem, scales, nodes)
+    return solve_with_fallback(nlp, problem, guess)
+
+
 def solve(problem: Problem, *, warm_start: Result | None = None,
           max_refinements: int | None = None) -> Result:
     """Optimise the schedule (and masses, if asked), verify by replay, refine the mesh.
@@ -345,6 +357,7 @@ def solve(problem: Problem, *, warm_start: Result | None = None,
     t_start = _time.perf_counter()
     nodes = problem.mesh.nodes_per_phase
     budget = problem.mesh.max_refinements if max_refinements is None else max_refinements
+    iterations = 0
     if warm_start is not None:
         nodes = warm_start.nodes
         guess = guess_from_solution(problem, warm_start.solution, nodes)
@@ -353,7 +366,8 @@ def solve(problem: Problem, *, warm_start: Result | None = None,
             _, scales = first_guess(problem, nodes)
     else:
         guess, scales = first_guess(problem, nodes)
-    iterations = 0
+        coarse, iterations = coarse_start(problem, nodes, lambda n: _cold_solve(problem, n))
+        guess = coarse or guess
     refinements = 0
     while True:
         nlp, _ = NLP_CACHE.get(problem, scales, nodes)

@@ -48,6 +48,7 @@ from ascentplan.optimisation.phases import (
     node_function,
     nodes_for_phase,
 )
+from ascentplan.optimisation.point_derivatives import PointCalls, structured_derivatives
 from ascentplan.optimisation.smoothing import control_smoothness
 from ascentplan.optimisation.solution import Guess, NLPSolution
 from ascentplan.optimisation.stack_rows import (
@@ -68,9 +69,13 @@ __all__ = ["ACCELERATE_MAX_VARIABLES", "EXPANSION_COST_ITERATIONS", "EXPANSION_S
 #: IPOPT options: MUMPS (shipped with CasADi), exact Hessian, and the adaptive barrier
 #: update, which on the scaled examples took 20-35 % fewer iterations than the monotone
 #: default at an equal or slightly better optimum (measured on the examples; Goddard
-#: alone takes 20 against 17)
+#: alone takes 20 against 17). MUMPS orders the KKT matrix by approximate minimum degree
+#: with quasi-dense rows detected (QAMD, pivot order 6), which its automatic choice also
+#: takes on the examples' sizes; on larger meshes the automatic choice took twice the
+#: time per factorisation (three-dimensional example, 80 and 160 nodes per phase, measured)
 IPOPT_OPTIONS = {
     "ipopt.linear_solver": "mumps",
+    "ipopt.mumps_pivot_order": 6,
     "ipopt.mu_strategy": "adaptive",
     "ipopt.tol": 1e-8,
     "ipopt.acceptable_tol": 1e-6,
@@ -104,9 +109,10 @@ WARM_START_OPTIONS = {
 ACCELERATE_MAX_VARIABLES = 6000
 #: the derivative expansion's one-off cost in IPOPT iterations of the unexpanded (MX)
 #: solver, and the fraction of each later iteration's time it saves (measured on the
-#: examples; see :meth:`AscentNLP.expansion_pays`)
+#: examples with the point-by-point derivatives: 24-49 iterations, 0-18 %; see
+#: :meth:`AscentNLP.expansion_pays`)
 EXPANSION_COST_ITERATIONS = 50.0
-EXPANSION_SAVING_FRACTION = 0.5
+EXPANSION_SAVING_FRACTION = 0.15
 
 
 def structure_key(problem: Problem) -> tuple:
@@ -194,6 +200,7 @@ class AscentNLP:
         self.rows = ConstraintRows()
         self.conditions = (SoftRows(self.rows, self.variables) if self.elastic
                            else HardRows(self.rows))
+        self.points = PointCalls()
         masses = add_stack_masses(self.problem, self.variables, self.parameters,
                                   self.mass_scale)
         self.phase_vars: list[_PhaseSymbols] = []
@@ -263,7 +270,7 @@ class AscentNLP:
         off, sc = self.x_offset[:, None], self.x_scale[:, None]
         engine = engine_inputs(self.problem, self.parameters, masses, ph)
         point = node_function(self.model, quantities)
-        F_nodes, Q_nodes = point.map(N)(sym.physical, U, engine)
+        F_nodes, Q_nodes = self.points.call(point, N, sym.physical, U, engine)
         Fs = F_nodes / sc  # scaled state derivative per physical second
         Xk, Xk1 = X[:, :-1], X[:, 1:]
         Fk, Fk1 = Fs[:, :-1], Fs[:, 1:]
@@ -272,7 +279,7 @@ class AscentNLP:
             self.rows.add(f"midpoints{j}",
                           Xc - self.scheme.midpoint_state(Xk, Xk1, Fk, Fk1, h), 0.0, 0.0)
             Uc = 0.5 * (U[:, :-1] + U[:, 1:])
-            F_mid, Q_mid = point.map(N - 1)(off + sc * Xc, Uc, engine)
+            F_mid, Q_mid = self.points.call(point, N - 1, off + sc * Xc, Uc, engine)
             Fc = F_mid / sc
             Q = ca.horzcat(Q_nodes, Q_mid)
         self.rows.add(f"defects{j}", self.scheme.defect(Xk, Xk1, Fk, Fk1, Fc, h), 0.0, 0.0)
@@ -439,9 +446,13 @@ class AscentNLP:
         self._nlp = {"x": self.w, "p": self.P, "f": self.f, "g": self.g}
         self.conditions.finish(self.w, self.P)
         self._options = {**IPOPT_OPTIONS, **ELASTIC_OPTIONS} if self.elastic else IPOPT_OPTIONS
-        self.solver = ca.nlpsol("ascent", "ipopt", self._nlp, self._options)
+        # the Hessian and the constraint Jacobian assembled point by point, when the NLP
+        # has that structure (point_derivatives)
+        self._derivative_options = structured_derivatives(
+            self.points, self.w, self.P, self.f, self.g) or {}
+        self.solver = ca.nlpsol("ascent", "ipopt", self._nlp,
+                                {**self._options, **self._derivative_options})
         self.warm_solver = None
-        self._derivative_options = {}
         self.accelerated = False
         self.accelerate_time = 0.0
         # solves and IPOPT iterations so far: what the derivative expansion is weighed on
@@ -456,11 +467,12 @@ class AscentNLP:
     def accelerate(self, max_variables: int = ACCELERATE_MAX_VARIABLES) -> bool:
         """Swap in SX-expanded Hessian and Jacobian functions for repeated solves.
 
-        The MX graph builds in a fraction of a second but evaluates its Hessian several
-        times slower than the same function expanded to SX (measured on the two-stage
-        example: 18 ms against 4.8 ms per evaluation, for a one-off expansion of about
-        1.2 s). The expansion pays only over enough further solves of one structure;
-        :meth:`expansion_pays` decides, and the NLP cache calls this when it does. Skipped
+        Expanding the point-by-point Hessian and Jacobian (:mod:`point_derivatives`) to
+        SX saves 0-18 % of each later IPOPT iteration, for a one-off cost of 24-49
+        iterations (measured on the examples; expanding the MX graph's own derivatives
+        saved 40-73 %). The expansion pays only over
+        enough further solves of one structure; :meth:`expansion_pays` decides, and the
+        NLP cache calls this when it does. Skipped
         above ``max_variables`` decision variables, where the expanded graph grows large
         in memory. Returns True when the accelerated solver is in use.
         """
@@ -485,7 +497,7 @@ class AscentNLP:
 
         Counted in IPOPT iterations, so that it holds on any machine: the expansion costs
         about :data:`EXPANSION_COST_ITERATIONS` unexpanded iterations and saves
-        :data:`EXPANSION_SAVING_FRACTION` of each later one, so it pays when over 100
+        :data:`EXPANSION_SAVING_FRACTION` of each later one, so it pays when over about 330
         iterations are to come: ``expected_solves`` (what a caller knows, e.g. the points
         a study worker has left) times this NLP's mean iterations per solve. Without it,
         as many more solves are expected as were made: the break-even rule of renting

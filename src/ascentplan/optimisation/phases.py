@@ -121,4 +121,10 @@ def node_function(model, quantities) -> ca.Function:
     if Q.shape[0] == 0:
         # a Function output may not be empty
         Q = ca.SX(1, 1)
+    # the state derivative and the quantities are written separately and share most of
+    # their terms (kinematics, air data, engine): merging the common subexpressions
+    # evaluates each once (885 against 518 instructions on the three-dimensional kind,
+    # and 15,337 against 8,604 in a point's Hessian), with the same arithmetic
+    n_x = xdot.shape[0]
+    xdot, Q = ca.vertsplit(ca.cse(ca.vertcat(xdot, Q)), [0, n_x, n_x + Q.shape[0]])
     return ca.Function("node", [x, u, engine], [xdot, Q])
