@@ -56,8 +56,8 @@ from ascentplan.optimisation.stack_rows import (
     flux_after_fairing,
     mass_after,
     stack_guess,
-    stack_structure,
 )
+from ascentplan.optimisation.structure import structure_key
 from ascentplan.problem.model import Problem, phase_plan
 from ascentplan.problem.objectives import OBJECTIVE_SPECS, Outcome
 
@@ -113,25 +113,6 @@ ACCELERATE_MAX_VARIABLES = 6000
 #: :meth:`AscentNLP.expansion_pays`)
 EXPANSION_COST_ITERATIONS = 50.0
 EXPANSION_SAVING_FRACTION = 0.15
-
-
-def structure_key(problem: Problem) -> tuple:
-    """What fixes the NLP's structure: everything that is not an NLP parameter."""
-    stages = tuple(
-        (s.throttle_min, s.throttle_max, s.max_throttle_rate, s.max_steering_rate, s.coast_after,
-         s.structural_ratio, s.thrust_to_weight is not None, s.propellant_min,
-         s.propellant_max, s.may_shut_down_early, s.restarts, s.restart_coast_min,
-         s.restart_coast_max)
-        for s in problem.vehicle.stages)
-    stages += stack_structure(problem)
-    return (problem.dynamics, problem.planet, problem.atmosphere, problem.gravity,
-            unscaled_drag(problem).aerodynamics, problem.launch, stages,
-            tuple(problem.limits.active_names()),
-            problem.target, problem.objective, problem.mesh.scheme, problem.mesh.nodes_per_phase,
-            problem.mesh.control_smoothing,
-            problem.mesh.limit_margin,
-            None if problem.mass_split is None else (problem.mass_split.hold,
-                                                     problem.mass_split.proportional))
 
 
 @dataclass(frozen=True)
