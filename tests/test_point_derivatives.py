@@ -39,7 +39,18 @@ def _thrust_follows_weight():
     return replace(problem, vehicle=replace(problem.vehicle, stages=tuple(stages)))
 
 
+def _stack_with_choices():
+    """Boosters whose setting the optimiser chooses and a heat-flux fairing: the engine
+    inputs of a booster phase hold a decision variable, and the fairing's flux rows are
+    point outputs after the jettison."""
+    problem = _problem("booster_launcher", 6)
+    groups = list(problem.vehicle.boosters)
+    groups[0] = replace(groups[0], throttle_min=0.6, throttle_max=1.0)
+    return replace(problem, vehicle=replace(problem.vehicle, boosters=tuple(groups)))
+
+
 CASES = {
+    "vehicle_stack": _stack_with_choices,
     "three_dimensional": lambda: _problem("medium_launcher_transfer", 6),
     "planar_limits": lambda: _problem("medium_launcher", 8),
     "vertical": lambda: _problem("goddard", 10),
