@@ -36,8 +36,8 @@ from ascentplan.output.text import printable
 from ascentplan.problem.limits import LIMITS
 from ascentplan.problem.model import Problem, phase_plan
 
-__all__ = ["DPI", "FIGURES", "PANELS", "order_figures", "plot_result", "plot_split_map",
-           "plot_trajectory", "result_nodes"]
+__all__ = ["DPI", "FIGURES", "PANELS", "draw_figures", "figure_stems", "order_figures",
+           "plot_arguments", "plot_result", "plot_split_map", "plot_trajectory", "result_nodes"]
 
 
 _PANEL_SIZE = (7.0, 4.2)  # single-quantity figure [in]
@@ -451,23 +451,43 @@ def plot_trajectory(problem: Problem, trajectory, out_dir, *, nodes=None,
     list of Path
         The files written, in :data:`FIGURES` order (overview first).
     """
+    return draw_figures(problem, trajectory, out_dir, figure_stems(problem), nodes=nodes,
+                        prefix=prefix, status=status)
+
+
+def figure_stems(problem: Problem) -> list[str]:
+    """The file stems of the figures of a flight of ``problem``, in :data:`FIGURES` order."""
+    stems = ["overview", *(panel.key for panel in _panels_for(problem))]
+    return stems + ["ground_track"] if has_ground_track(problem) else stems
+
+
+def draw_figures(problem: Problem, trajectory, out_dir, stems, *, nodes=None,
+                 prefix: str = "", status: str | None = None) -> list[Path]:
+    """Write the figures named by ``stems`` (from :func:`figure_stems`) as PNG files;
+    the arguments as for :func:`plot_trajectory`, which draws them all. Drawing processes
+    each draw some of them (:mod:`ascentplan.output.plot_workers`)."""
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     stamp = _simulation_stamp(trajectory) if status is None else status_stamp(status)
     # computed once for all the figures
     shared = dict(stamp=stamp, events=_event_marks(problem, trajectory),
                   node_values=_node_quantities(problem, nodes) if nodes is not None else None)
-    paths = [out / f"{prefix}{stem}.png" for stem in
-             ("overview", *(panel.key for panel in _panels_for(problem)))]
+    paths = []
+    canvas = None
     with PngWriter() as writer:
-        save_png(_overview_figure(problem, trajectory, **shared), paths[0], writer=writer)
-        canvas = _PanelCanvas()
-        for panel, path in zip(_panels_for(problem), paths[1:]):
-            fig = _panel_figure(problem, trajectory, panel.key, canvas=canvas, **shared)
+        for stem in stems:
+            path = out / f"{prefix}{stem}.png"
+            if stem == "overview":
+                fig = _overview_figure(problem, trajectory, **shared)
+            elif stem == "ground_track":
+                plot_ground_track(problem, trajectory, path, stamp)
+                paths.append(path)
+                continue
+            else:
+                canvas = canvas or _PanelCanvas()
+                fig = _panel_figure(problem, trajectory, stem, canvas=canvas, **shared)
             save_png(fig, path, writer=writer)
-    if has_ground_track(problem):
-        paths.append(plot_ground_track(problem, trajectory, out / f"{prefix}ground_track.png",
-                                       stamp))
+            paths.append(path)
     return paths
 
 
@@ -498,7 +518,13 @@ def plot_result(result, out_dir, *, prefix: str = "") -> list[Path]:
     """
     if result.trajectory is None:
         return []
+    return plot_trajectory(out_dir=out_dir, prefix=prefix, **plot_arguments(result))
+
+
+def plot_arguments(result) -> dict:
+    """What :func:`plot_trajectory` draws of a solve result: the problem flown, its
+    replay, the optimiser's nodes and the status, as keyword arguments."""
     # the replay flew the optimised masses, so the node quantities must use them too
     problem = getattr(result, "solved_problem", None) or result.problem
-    return plot_trajectory(problem, result.trajectory, out_dir, nodes=result_nodes(result),
-                           prefix=prefix, status=result.status)
+    return dict(problem=problem, trajectory=result.trajectory, nodes=result_nodes(result),
+                status=result.status)
