@@ -1,0 +1,111 @@
+"""The plots drawn by processes started before the solve: the same figures, the same
+pixels and the same files as when the main process draws them, and a process that fails
+leaves its figures to the main process."""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+
+import numpy as np
+import pytest
+from PIL import Image
+
+from ascentplan.output.plot_workers import PlotWorkers, share_figures
+from ascentplan.output.plots import FIGURES, plot_result
+from ascentplan.pipeline import solve, write_outputs
+from ascentplan.problem.loader import load_problem
+
+PROBLEMS = Path(__file__).resolve().parents[1] / "problems"
+
+
+@pytest.fixture(scope="module")
+def goddard_result():
+    result = solve(load_problem(PROBLEMS / "goddard.yaml"))
+    assert result.status == "optimal", result.message
+    return result
+
+
+def _pixels(path: Path) -> np.ndarray:
+    with Image.open(path) as image:
+        return np.asarray(image.convert("RGBA"))
+
+
+def _same_pictures(paths, reference) -> None:
+    assert [p.name for p in paths] == [p.name for p in reference]
+    for path, ref in zip(paths, reference):
+        assert path.is_file(), path
+        assert np.array_equal(_pixels(path), _pixels(ref)), path.name
+
+
+def test_the_overview_weighs_as_much_as_its_panels():
+    stems = ["overview", "altitude", "speed", "dynamic_pressure", "axial_acceleration",
+             "throttle", "mass"]
+    # six panels on the overview: one process draws it, the other the six single panels
+    assert share_figures(stems, 6, 2) == [["overview"], stems[1:]]
+    # one process draws everything, in the order given
+    assert share_figures(stems, 6, 1) == [stems]
+    # a ground track is one more panel's work: the shares differ by one panel at most
+    with_track = ["overview", *stems[1:], "ground_track"]
+    shares = share_figures(with_track, 6, 2)
+    loads = [sum(6 if s == "overview" else 1 for s in share) for share in shares]
+    assert sorted(loads) == [6, 7]
+    # every figure is drawn exactly once
+    shares = share_figures(stems, 6, 3)
+    assert sorted(s for share in shares for s in share) == sorted(stems)
+
+
+def test_processes_draw_the_pictures_the_main_process_draws(goddard_result, tmp_path):
+    reference = plot_result(goddard_result, tmp_path / "here")
+    with PlotWorkers(2) as workers:
+        assert workers.count == 2
+        pending = workers.plot_result(goddard_result, tmp_path / "there")
+        paths = pending.wait()
+    # the files in the one order of the results folder and the report
+    assert [p.stem for p in paths] == [s for s in FIGURES if s in {p.stem for p in paths}]
+    _same_pictures(paths, reference)
+
+
+def test_a_dead_process_leaves_its_figures_to_the_main_process(goddard_result, tmp_path):
+    reference = plot_result(goddard_result, tmp_path / "here")
+    with PlotWorkers(2) as workers:
+        process = workers._workers[0][0]
+        process.terminate()
+        process.join()
+        paths = workers.plot_result(goddard_result, tmp_path / "there").wait()
+    _same_pictures(paths, reference)
+
+
+def test_no_process_means_the_main_process_draws(goddard_result, tmp_path):
+    reference = plot_result(goddard_result, tmp_path / "here")
+    with PlotWorkers(0) as workers:
+        assert workers.count == 0
+        paths = workers.plot_result(goddard_result, tmp_path / "there").wait()
+    _same_pictures(paths, reference)
+
+
+def test_a_fault_ends_the_processes_on_leaving(goddard_result):
+    with pytest.raises(RuntimeError, match="stop"):
+        with PlotWorkers(2) as workers:
+            processes = [process for process, _conn in workers._workers]
+            raise RuntimeError("stop")
+    assert processes and not any(process.is_alive() for process in processes)
+    assert workers.count == 0
+
+
+def test_written_outputs_are_the_same_with_drawing_processes(goddard_result, tmp_path):
+    alone = write_outputs(goddard_result, tmp_path / "alone")
+    with PlotWorkers(2) as workers:
+        helped = write_outputs(goddard_result, tmp_path / "helped", plotter=workers)
+    assert [p.name for p in helped] == [p.name for p in alone]
+    pngs = [p for p in alone if p.suffix == ".png"]
+    _same_pictures([p for p in helped if p.suffix == ".png"], pngs)
+    # the report embeds the same figures in the same order
+    assert _undated(tmp_path / "helped" / "report.html") == _undated(
+        tmp_path / "alone" / "report.html")
+
+
+def _undated(path: Path) -> str:
+    """A report's text without the time it was written."""
+    return re.sub(r"\d{4}-\d\d-\d\dT\d\d:\d\d:\d\dZ", "DATE",
+                  path.read_text(encoding="utf-8"))
