@@ -11,10 +11,13 @@ import numpy as np
 import pytest
 from PIL import Image
 
+from ascentplan.output.canvases import Canvases
+from ascentplan.output.figure_list import figure_stems, plot_arguments
 from ascentplan.output.plot_workers import PlotWorkers, share_figures
-from ascentplan.output.plots import FIGURES, plot_result
+from ascentplan.output.plots import FIGURES, draw_figures, plot_result
 from ascentplan.pipeline import solve, write_outputs
 from ascentplan.problem.loader import load_problem
+from ascentplan.replay.simulate import simulate
 
 PROBLEMS = Path(__file__).resolve().parents[1] / "problems"
 
@@ -59,6 +62,8 @@ def test_processes_draw_the_pictures_the_main_process_draws(goddard_result, tmp_
     reference = plot_result(goddard_result, tmp_path / "here")
     with PlotWorkers(2) as workers:
         assert workers.count == 2
+        # each process makes and draws its figures once before the solve's are drawn
+        workers.prepare(goddard_result.problem)
         pending = workers.plot_result(goddard_result, tmp_path / "there")
         paths = pending.wait()
     # the files in the one order of the results folder and the report
@@ -109,3 +114,17 @@ def _undated(path: Path) -> str:
     """A report's text without the time it was written."""
     return re.sub(r"\d{4}-\d\d-\d\dT\d\d:\d\d:\d\dZ", "DATE",
                   path.read_text(encoding="utf-8"))
+
+
+def test_figures_drawn_again_have_the_pixels_of_new_ones(goddard_result, tmp_path):
+    reference = plot_result(goddard_result, tmp_path / "new")
+    arguments = plot_arguments(goddard_result)
+    stems = figure_stems(arguments["problem"])
+    canvases = Canvases()
+    canvases.prepare(panels=len(stems) - 1, single=True)
+    # another flight first (a forward simulation: other curves, ranges and stamps)
+    draw_figures(arguments["problem"], simulate(arguments["problem"]), tmp_path / "other",
+                 stems, canvases=canvases)
+    paths = draw_figures(**arguments, out_dir=tmp_path / "again", stems=stems,
+                         canvases=canvases)
+    _same_pictures(paths, reference)

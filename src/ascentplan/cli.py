@@ -257,6 +257,7 @@ def _cmd_solve(args) -> int:
     # the plots' drawing processes start first: they are ready when the solve ends
     with PlotWorkers() as plotter:
         problem = load_problem(args.file)
+        plotter.prepare(problem)  # each makes the figures it will draw
         from ascentplan.pipeline import format_result, solve_problem, write_outputs
 
         out = _results_folder(problem, args.out)

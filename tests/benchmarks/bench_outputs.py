@@ -45,12 +45,12 @@ def _point(name: str) -> None:
 
 
 def _timed_point(name: str, plotter) -> None:
-    from ascentplan.output.plots import plot_split_map
     from ascentplan.pipeline import solve_problem, write_outputs
     from ascentplan.problem.loader import load_problem
     from ascentplan.problem.objectives import OBJECTIVE_SPECS
 
     problem = load_problem(PROBLEMS / f"{name}.yaml")
+    plotter.prepare(problem)
     t0 = time.perf_counter()
     result = solve_problem(problem, out_dir=None)
     solve_s = time.perf_counter() - t0
@@ -58,6 +58,8 @@ def _timed_point(name: str, plotter) -> None:
         t0 = time.perf_counter()
         split = result.extra.get("mass_split", {}).get("map")
         if split:
+            from ascentplan.output.plots import plot_split_map
+
             plot_split_map(split, folder, unit=OBJECTIVE_SPECS[problem.objective].unit,
                            objective=problem.objective)
         written = write_outputs(result, folder, plotter=plotter)

@@ -48,38 +48,53 @@ def warm_up() -> None:
     fig.canvas.draw()
 
 
-def _answer(job) -> tuple[str, object]:
+def _answer(job, canvases) -> tuple[str, object]:
     """Draw a job's figures: ("ok", file names) or ("error", the traceback's text)."""
     try:
         from ascentplan.output.plots import draw_figures
 
-        return "ok", [str(p) for p in draw_figures(**job)]
+        return "ok", [str(p) for p in draw_figures(**job, canvases=canvases)]
     except Exception:  # any fault goes back: the main process then draws the share itself
         return "error", traceback.format_exc()
 
 
 def _serve(conn) -> None:
-    """A drawing process: warm up, then draw each job's figures until told to stop."""
+    """A drawing process: warm up, then prepare figures and draw jobs until told to stop.
+
+    A message is ("prepare", keywords of :meth:`Canvases.prepare`), answered by none, or
+    ("draw", keywords of :func:`~ascentplan.output.plots.draw_figures`), answered by
+    :func:`_answer`; None stops the process.
+    """
     # Ctrl-C reaches the whole process group: the main process ends its workers itself
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+    canvases = None
     try:
         # the plotting code, and the replay's module that a job's flight is read into
         # (it imports SciPy): imported now, not when the first job arrives
         import ascentplan.output.plots  # noqa: F401
         import ascentplan.replay.trajectory  # noqa: F401
+        from ascentplan.output.canvases import Canvases
 
         warm_up()
+        canvases = Canvases()
     except Exception:  # a job then fails too, and the main process draws its share
         pass
     while True:
         try:
-            job = conn.recv()
+            message = conn.recv()
         except (EOFError, OSError):
             return
-        if job is None:
+        if message is None:
             return
+        kind, payload = message
+        if kind == "prepare":
+            try:
+                canvases.prepare(**payload)
+            except Exception:  # only the speed is lost: a job makes its own figures
+                pass
+            continue
         try:
-            conn.send(_answer(job))
+            conn.send(_answer(payload, canvases))
         except (OSError, ValueError):  # the main process is gone
             return
 
@@ -164,17 +179,35 @@ class PlotWorkers:
     def count(self) -> int:
         return len(self._workers)
 
+    def _shares(self, problem) -> tuple[list[str], list[list[str]]]:
+        from ascentplan.output.figure_list import figure_stems
+
+        stems = figure_stems(problem)
+        panels = len(stems) - 1 - ("ground_track" in stems)
+        return stems, share_figures(stems, panels, max(1, self.count))
+
+    def prepare(self, problem) -> None:
+        """Have each process make and draw once the figures it will draw for a solve of
+        ``problem``, while the problem is solved (no wait)."""
+        stems, shares = self._shares(problem)
+        panels = len(stems) - 1 - ("ground_track" in stems)
+        for k, share in enumerate(shares[:self.count]):
+            payload = dict(panels=panels if "overview" in share else None,
+                           single=any(s not in ("overview", "ground_track") for s in share))
+            try:
+                self._workers[k][1].send(("prepare", payload))
+            except (OSError, ValueError):  # the process is gone: its share is drawn here
+                pass
+
     def plot_result(self, result, out_dir, *, prefix: str = "") -> PendingPlots | None:
         """Start drawing the figures of a solve result (those of
         :func:`ascentplan.output.plots.plot_result`); None when it has no replay."""
         if result.trajectory is None:
             return None
-        from ascentplan.output.plots import figure_stems, plot_arguments
+        from ascentplan.output.figure_list import plot_arguments
 
         arguments = dict(plot_arguments(result), out_dir=str(out_dir), prefix=prefix)
-        stems = figure_stems(arguments["problem"])
-        shares = share_figures(stems, len(stems) - 1 - ("ground_track" in stems),
-                               max(1, self.count))
+        stems, shares = self._shares(arguments["problem"])
         jobs = []
         for k, share in enumerate(shares):
             job = dict(arguments, stems=share)
@@ -186,7 +219,7 @@ class PlotWorkers:
         if k >= self.count or k in self._busy:
             return False
         try:
-            self._workers[k][1].send(job)
+            self._workers[k][1].send(("draw", job))
         except (OSError, ValueError):  # the process is gone: the share is drawn here
             return False
         self._busy.add(k)
