@@ -30,6 +30,8 @@ MAX_WORKERS = 2
 OVERVIEW_WEIGHT = 0.5
 #: how long a closing worker may take to exit before it is stopped [s]
 _EXIT_WAIT = 2.0
+#: longest wait for a process's figures [s]: past it the main process draws them
+_ANSWER_WAIT = 300.0
 
 
 def warm_up() -> None:
@@ -201,7 +203,7 @@ class PlotWorkers:
                            single=any(s not in ("overview", "ground_track") for s in share))
             try:
                 self._workers[k][1].send(("prepare", payload))
-            except (OSError, ValueError):  # the process is gone: its share is drawn here
+            except Exception:  # the process is gone: its share is drawn here
                 pass
 
     def plot_result(self, result, out_dir, *, prefix: str = "") -> PendingPlots | None:
@@ -225,7 +227,7 @@ class PlotWorkers:
             return False
         try:
             self._workers[k][1].send(("draw", job))
-        except (OSError, ValueError):  # the process is gone: the share is drawn here
+        except Exception:  # the process is gone, or the job cannot be sent: drawn here
             return False
         self._busy.add(k)
         return True
@@ -233,9 +235,17 @@ class PlotWorkers:
     def answer(self, k: int):
         """The answer of worker ``k`` to its job: ("ok", files), ("error", text), or
         None when the process ended without one."""
-        self._busy.discard(k)
+        process, conn = self._workers[k]
+        waited = 0.0
         try:
-            return self._workers[k][1].recv()
+            # a process that died says so at once (end of file); one that hangs is
+            # given up after a while
+            while not conn.poll(0.5):
+                waited += 0.5
+                if not process.is_alive() or waited >= _ANSWER_WAIT:
+                    return None
+            self._busy.discard(k)
+            return conn.recv()
         except (EOFError, OSError):
             return None
 
