@@ -4,6 +4,7 @@ leaves its figures to the main process."""
 
 from __future__ import annotations
 
+import multiprocessing
 import re
 from pathlib import Path
 
@@ -11,6 +12,7 @@ import numpy as np
 import pytest
 from PIL import Image
 
+from ascentplan.output import plot_workers
 from ascentplan.output.canvases import Canvases
 from ascentplan.output.figure_list import figure_stems, plot_arguments
 from ascentplan.output.plot_workers import PlotWorkers, share_figures
@@ -60,12 +62,17 @@ def test_the_overview_weighs_half_its_panels():
     assert sorted(s for share in shares for s in share) == sorted(stems)
 
 
-def test_processes_draw_the_pictures_the_main_process_draws(goddard_result, tmp_path):
+@pytest.mark.parametrize(("method", "shares"), [("fork", 2), ("spawn", 2), ("fork", 1)])
+def test_processes_draw_the_pictures_the_main_process_draws(goddard_result, tmp_path,
+                                                            monkeypatch, method, shares):
+    if method not in multiprocessing.get_all_start_methods():
+        pytest.skip(f"no {method} here")
+    monkeypatch.setattr(plot_workers, "_start_method", lambda: method)
     reference = plot_result(goddard_result, tmp_path / "here")
-    with PlotWorkers(2) as workers:
-        assert workers.count == 2
-        # each process makes and draws its figures once before the solve's are drawn
-        workers.prepare(goddard_result.problem)
+    # the process makes and draws its figures once before the solve's are drawn; with
+    # two shares, it and a forked copy of it draw half of them each
+    with PlotWorkers(goddard_result.problem, count=1, shares=shares) as workers:
+        assert workers.count == 1
         pending = workers.plot_result(goddard_result, tmp_path / "there")
         paths = pending.wait()
     # the files in the one order of the results folder and the report
@@ -75,7 +82,7 @@ def test_processes_draw_the_pictures_the_main_process_draws(goddard_result, tmp_
 
 def test_a_dead_process_leaves_its_figures_to_the_main_process(goddard_result, tmp_path):
     reference = plot_result(goddard_result, tmp_path / "here")
-    with PlotWorkers(2) as workers:
+    with PlotWorkers(count=1) as workers:
         process = workers._workers[0][0]
         process.terminate()
         process.join()
@@ -85,7 +92,7 @@ def test_a_dead_process_leaves_its_figures_to_the_main_process(goddard_result, t
 
 def test_no_process_means_the_main_process_draws(goddard_result, tmp_path):
     reference = plot_result(goddard_result, tmp_path / "here")
-    with PlotWorkers(0) as workers:
+    with PlotWorkers(count=0) as workers:
         assert workers.count == 0
         paths = workers.plot_result(goddard_result, tmp_path / "there").wait()
     _same_pictures(paths, reference)
@@ -93,7 +100,7 @@ def test_no_process_means_the_main_process_draws(goddard_result, tmp_path):
 
 def test_a_fault_ends_the_processes_on_leaving(goddard_result):
     with pytest.raises(RuntimeError, match="stop"):
-        with PlotWorkers(2) as workers:
+        with PlotWorkers(count=1) as workers:
             processes = [process for process, _conn in workers._workers]
             raise RuntimeError("stop")
     assert processes and not any(process.is_alive() for process in processes)
@@ -102,7 +109,7 @@ def test_a_fault_ends_the_processes_on_leaving(goddard_result):
 
 def test_written_outputs_are_the_same_with_drawing_processes(goddard_result, tmp_path):
     alone = write_outputs(goddard_result, tmp_path / "alone")
-    with PlotWorkers(2) as workers:
+    with PlotWorkers(count=1) as workers:
         helped = write_outputs(goddard_result, tmp_path / "helped", plotter=workers)
     assert [p.name for p in helped] == [p.name for p in alone]
     pngs = [p for p in alone if p.suffix == ".png"]
@@ -130,3 +137,15 @@ def test_figures_drawn_again_have_the_pixels_of_new_ones(goddard_result, tmp_pat
     paths = draw_figures(**arguments, out_dir=tmp_path / "again", stems=stems,
                          canvases=canvases)
     _same_pictures(paths, reference)
+
+
+def test_a_busy_machine_gets_no_drawing_process(goddard_result, tmp_path, monkeypatch):
+    monkeypatch.setattr(plot_workers, "_idle_processors", lambda: 0.5)
+    reference = plot_result(goddard_result, tmp_path / "here")
+    with PlotWorkers(goddard_result.problem) as workers:
+        assert workers.count == 0
+        paths = workers.plot_result(goddard_result, tmp_path / "there").wait()
+    _same_pictures(paths, reference)
+    monkeypatch.setattr(plot_workers, "_idle_processors", lambda: 1.2)
+    with PlotWorkers() as workers:
+        assert workers.count == 1

@@ -252,16 +252,14 @@ SOLVE_EXIT = {"optimal": 0, "not_verified": 1, "infeasible": 3, "failed": 4}
 
 
 def _cmd_solve(args) -> int:
+    problem = load_problem(args.file)
     from ascentplan.output.plot_workers import PlotWorkers
+    from ascentplan.pipeline import format_result, solve_problem, write_outputs
 
-    # the plots' drawing processes start first: they are ready when the solve ends
-    with PlotWorkers() as plotter:
-        problem = load_problem(args.file)
-        plotter.prepare(problem)  # each makes the figures it will draw
-        from ascentplan.pipeline import format_result, solve_problem, write_outputs
-
-        out = _results_folder(problem, args.out)
-        _make_folder(out)
+    out = _results_folder(problem, args.out)
+    _make_folder(out)
+    # the plots' drawing processes start now: they are ready when the solve ends
+    with PlotWorkers(problem) as plotter:
         result = solve_problem(problem, split_map=args.split_map, out_dir=out)
         write_outputs(result, out, plotter=plotter)
     _show(format_result(result))

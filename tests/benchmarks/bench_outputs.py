@@ -1,13 +1,13 @@
 """Writing the results of a solve against the solve itself, per example problem.
 
 Each example runs in a fresh interpreter (``--point``), as ``ascentplan solve`` does: the
-drawing processes of the plots start first (they import matplotlib and load its fonts
-while the problem is read and solved), then the solve (with the split comparison and,
-where the file asks, the split map's re-solves), then the result files (``summary.json``,
-the CSV files, every PNG and ``report.html``), timed apart; the solve's time includes
-whatever the drawing processes' start took from it. The split map's PNG is drawn by the
-solve in the command; here it is drawn after the solve, in the main process, and
-counted with the outputs.
+problem is read, the drawing processes of the plots start (they import matplotlib, load
+its fonts and make their figures while the problem is solved), then the solve (with the
+split comparison and, where the file asks, the split map's re-solves), then the result
+files (``summary.json``, the CSV files, every PNG and ``report.html``), timed apart; the
+solve's time includes the start of the drawing processes and whatever their work took
+from it. The split map's PNG is drawn by the solve in the command; here it is drawn
+after the solve, in the main process, and counted with the outputs.
 
 Run: python tests/benchmarks/bench_outputs.py [--quick] [--repeats N]
 Writes results/benchmarks/outputs.json (results/benchmarks/quick/ with --quick).
@@ -38,30 +38,29 @@ QUICK_EXAMPLES = ("goddard", "small_launcher")
 
 def _point(name: str) -> None:
     from ascentplan.output.plot_workers import PlotWorkers
-
-    # as the solve verb does: the drawing processes start before the problem is read
-    with PlotWorkers() as plotter:
-        _timed_point(name, plotter)
-
-
-def _timed_point(name: str, plotter) -> None:
     from ascentplan.pipeline import solve_problem, write_outputs
     from ascentplan.problem.loader import load_problem
     from ascentplan.problem.objectives import OBJECTIVE_SPECS
 
     problem = load_problem(PROBLEMS / f"{name}.yaml")
-    plotter.prepare(problem)
+    # as the solve verb does: the drawing processes start just before the solve, and
+    # their start is counted with the solve
     t0 = time.perf_counter()
-    result = solve_problem(problem, out_dir=None)
-    solve_s = time.perf_counter() - t0
+    with PlotWorkers(problem) as plotter:
+        result = solve_problem(problem, out_dir=None)
+        solve_s = time.perf_counter() - t0
+        _write(name, problem, result, solve_s, plotter, write_outputs,
+               OBJECTIVE_SPECS[problem.objective].unit)
+
+
+def _write(name, problem, result, solve_s, plotter, write_outputs, unit) -> None:
     with tempfile.TemporaryDirectory() as folder:
         t0 = time.perf_counter()
         split = result.extra.get("mass_split", {}).get("map")
         if split:
             from ascentplan.output.plots import plot_split_map
 
-            plot_split_map(split, folder, unit=OBJECTIVE_SPECS[problem.objective].unit,
-                           objective=problem.objective)
+            plot_split_map(split, folder, unit=unit, objective=problem.objective)
         written = write_outputs(result, folder, plotter=plotter)
         outputs_s = time.perf_counter() - t0
         pngs = sorted(p.name for p in Path(folder).glob("*.png"))

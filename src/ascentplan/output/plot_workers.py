@@ -1,11 +1,17 @@
-"""Drawing a solve's figures in processes started before the solve.
+"""Drawing a solve's figures in a process started before the solve.
 
 Importing matplotlib and loading its fonts takes about half a second, and drawing the
 figures of a solve about as long again: together longer than the solve of a small
-problem. The ``solve`` verb therefore starts drawing processes first; they import the
-plotting code and draw a small figure (fonts and caches loaded) while the problem is
-read and solved, then each draws a share of the figures, all at once, while the main
-process writes the summary and the CSV files.
+problem. The ``solve`` verb therefore starts a drawing process before the solve; it
+imports matplotlib, loads the fonts and makes and draws once the figures it will draw
+(:class:`~ascentplan.output.canvases.Canvases`) while the problem is solved. When the
+solve ends, it draws the figures while the main process writes the summary and the CSV
+files; on Linux it first forks a copy of itself, warm as it is, and the two draw half
+the figures each (by work, :func:`share_figures`), one per processor.
+
+One process warms up rather than two: its start costs a processor about a second,
+taken from the solve when the machine has no idle one (measured on a shared two-core
+machine, two warming processes slowed the solve more than they sped up the drawing).
 
 A process that cannot be started, dies or fails leaves its figures to the main
 process, which draws them itself (the figures are the same either way), so a machine
@@ -17,13 +23,15 @@ from __future__ import annotations
 import multiprocessing
 import os
 import signal
+import sys
+import threading
 import traceback
 from pathlib import Path
 
 __all__ = ["PendingPlots", "PlotWorkers", "share_figures", "warm_up"]
 
-#: drawing processes at most: two share the figures about evenly
-MAX_WORKERS = 2
+#: processes drawing at once at most: the drawing process and its forked copy
+MAX_SHARES = 2
 #: the overview's work per panel it shows, a single panel's work being one: about half
 #: (its smaller cells have fewer ticks, one legend; measured as processor time on
 #: redrawn figures of the Goddard, two-stage and transfer-orbit examples: 0.45 to 0.58)
@@ -53,22 +61,51 @@ def warm_up() -> None:
     fig.canvas.draw()
 
 
-def _answer(job, canvases) -> tuple[str, object]:
-    """Draw a job's figures: ("ok", file names) or ("error", the traceback's text)."""
-    try:
-        from ascentplan.output.plots import draw_figures
+def _can_fork() -> bool:
+    """Whether this process may fork: on Linux, with one thread (a fork copies only the
+    calling thread, so a lock held by another would never be released in the copy)."""
+    return (sys.platform.startswith("linux") and threading.active_count() == 1
+            and hasattr(os, "fork"))
 
-        return "ok", [str(p) for p in draw_figures(**job, canvases=canvases)]
-    except Exception:  # any fault goes back: the main process then draws the share itself
+
+def _draw(job, shares, canvases) -> list[str]:
+    """Draw a job's figures, ``shares`` of its stems at once where this process can fork
+    a copy of itself: the copy draws the last share, this process the others (and the
+    last one too if the copy failed)."""
+    from ascentplan.output.plots import draw_figures
+
+    child = 0
+    if len(shares) > 1 and _can_fork():
+        child = os.fork()
+        if child == 0:  # the copy: draw its share, then end without any clean-up
+            code = 1
+            try:
+                draw_figures(**job, stems=shares[-1], canvases=canvases)
+                code = 0
+            finally:
+                os._exit(code)
+    mine = shares[:-1] if child else shares
+    for share in mine:
+        draw_figures(**job, stems=share, canvases=canvases)
+    if child and os.waitstatus_to_exitcode(os.waitpid(child, 0)[1]) != 0:
+        draw_figures(**job, stems=shares[-1], canvases=canvases)
+    return [stem for share in shares for stem in share]
+
+
+def _answer(job, shares, canvases) -> tuple[str, object]:
+    """Draw a job: ("ok", the stems drawn) or ("error", the traceback's text)."""
+    try:
+        return "ok", _draw(job, shares, canvases)
+    except Exception:  # any fault goes back: the main process then draws the figures
         return "error", traceback.format_exc()
 
 
 def _serve(conn) -> None:
-    """A drawing process: warm up, then prepare figures and draw jobs until told to stop.
+    """The drawing process: warm up, then prepare figures and draw jobs until told to stop.
 
     A message is ("prepare", keywords of :meth:`Canvases.prepare`), answered by none, or
-    ("draw", keywords of :func:`~ascentplan.output.plots.draw_figures`), answered by
-    :func:`_answer`; None stops the process.
+    ("draw", (keywords of :func:`~ascentplan.output.plots.draw_figures` but the stems,
+    the shares of stems)), answered by :func:`_answer`; None stops the process.
     """
     # Ctrl-C reaches the whole process group: the main process ends its workers itself
     signal.signal(signal.SIGINT, signal.SIG_IGN)
@@ -82,7 +119,7 @@ def _serve(conn) -> None:
 
         warm_up()
         canvases = Canvases()
-    except Exception:  # a job then fails too, and the main process draws its share
+    except Exception:  # a job then fails too, and the main process draws the figures
         pass
     while True:
         try:
@@ -99,7 +136,7 @@ def _serve(conn) -> None:
                 pass
             continue
         try:
-            conn.send(_answer(payload, canvases))
+            conn.send(_answer(*payload, canvases))
         except (OSError, ValueError):  # the main process is gone
             return
 
@@ -109,6 +146,16 @@ def _usable_cpus() -> int:
         return len(os.sched_getaffinity(0))
     except AttributeError:  # not on every system
         return os.cpu_count() or 1
+
+
+def _idle_processors() -> float:
+    """Processors left idle over the last minute (usable ones less the load average,
+    which counts this process); all of them where the system gives no load average."""
+    try:
+        load = os.getloadavg()[0]
+    except (AttributeError, OSError):
+        return float(_usable_cpus())
+    return _usable_cpus() - load
 
 
 def share_figures(stems, panels: int, workers: int) -> list[list[str]]:
@@ -128,43 +175,72 @@ def share_figures(stems, panels: int, workers: int) -> list[list[str]]:
     return [sorted(share, key=order.__getitem__) for share in shares if share]
 
 
-class PendingPlots:
-    """Figures being drawn by the workers; :meth:`wait` returns their files."""
+def _panels(stems) -> int:
+    """Panels on the overview: every figure but the overview and the ground track."""
+    return len(stems) - 1 - ("ground_track" in stems)
 
-    def __init__(self, workers: PlotWorkers, jobs, files):
+
+class PendingPlots:
+    """Figures being drawn by the drawing process; :meth:`wait` returns their files."""
+
+    def __init__(self, workers: PlotWorkers, job, sent: bool, files):
         self._workers = workers
-        self._jobs = jobs  # (worker index or None, job) per share
+        self._job = job
+        self._sent = sent
         self._files = files
 
     def wait(self) -> list[Path]:
-        """Wait for every share; draw here any share whose process failed. The files in
-        :data:`~ascentplan.output.plots.FIGURES` order."""
-        from ascentplan.output.plots import draw_figures
+        """Wait for the figures; draw them here if the process failed. The files in
+        :data:`~ascentplan.output.figure_list.FIGURES` order."""
+        answer = self._workers.answer() if self._sent else None
+        if answer is None or answer[0] != "ok":
+            from ascentplan.output.plots import draw_figures
 
-        for k, job in self._jobs:
-            answer = self._workers.answer(k) if k is not None else None
-            if answer is None or answer[0] != "ok":
-                draw_figures(**job)
+            draw_figures(**self._job, stems=[f.stem[len(self._job["prefix"]):]
+                                             for f in self._files])
         return list(self._files)
 
 
+def _start_method() -> str:
+    """Fork where it is safe (:func:`_can_fork`): the child inherits the modules already
+    imported (NumPy, SciPy, CasADi, the package) and imports only matplotlib. Elsewhere
+    a fresh interpreter (spawn)."""
+    if _can_fork() and "fork" in multiprocessing.get_all_start_methods():
+        return "fork"
+    return "spawn"
+
+
 class PlotWorkers:
-    """Drawing processes, started at once and warming up in the background; a context
-    manager that ends them on leaving.
+    """The drawing process, started at once and warming up in the background; a context
+    manager that ends it on leaving.
 
     Parameters
     ----------
+    problem : Problem, optional
+        The problem about to be solved: the process then also makes and draws once the
+        figures it will draw (:meth:`prepare`).
     count : int, optional
-        Processes to start; by default :data:`MAX_WORKERS`, fewer on a machine with fewer
-        usable CPUs. Zero starts none: every figure is then drawn in the main process.
+        1 starts the drawing process; 0 starts none, and every figure is then drawn in
+        the main process. By default 1 when a processor has been idle (load average at
+        least one below the usable processors), else 0: on a busy machine the process's
+        start would only take time from the solve.
+    shares : int, optional
+        Processes drawing at once (the drawing process and forked copies of it); by
+        default :data:`MAX_SHARES`, fewer on a machine with fewer usable processors.
     """
 
-    def __init__(self, count: int | None = None):
-        count = min(MAX_WORKERS, _usable_cpus()) if count is None else count
+    def __init__(self, problem=None, count: int | None = None, shares: int | None = None):
+        if count is None:
+            count = 1 if _idle_processors() >= 1.0 else 0
+        self._shares = max(1, min(MAX_SHARES, _usable_cpus()) if shares is None else shares)
         self._workers = []
-        self._busy: set[int] = set()
-        context = multiprocessing.get_context("spawn")
-        for _ in range(max(0, count)):
+        self._busy = False
+        if count > 0:
+            # imported before a fork (the solve needs it anyway), so that the child
+            # inherits it; matplotlib is left to the child
+            import ascentplan.replay.trajectory  # noqa: F401
+        context = multiprocessing.get_context(_start_method())
+        for _ in range(min(1, max(0, count))):
             try:
                 parent, child = context.Pipe()
                 process = context.Process(target=_serve, args=(child,), daemon=True,
@@ -174,6 +250,8 @@ class PlotWorkers:
                 break
             child.close()
             self._workers.append((process, parent))
+        if problem is not None:
+            self.prepare(problem)
 
     def __enter__(self) -> PlotWorkers:
         return self
@@ -184,58 +262,45 @@ class PlotWorkers:
 
     @property
     def count(self) -> int:
+        """Drawing processes running (0 or 1)."""
         return len(self._workers)
 
-    def _shares(self, problem) -> tuple[list[str], list[list[str]]]:
+    def _send(self, message) -> bool:
+        if not self._workers:
+            return False
+        try:
+            self._workers[0][1].send(message)
+        except Exception:  # the process is gone, or the job cannot be sent: drawn here
+            return False
+        return True
+
+    def prepare(self, problem) -> None:
+        """Have the process make and draw once the figures of a solve of ``problem``,
+        while the problem is solved (no wait)."""
         from ascentplan.output.figure_list import figure_stems
 
         stems = figure_stems(problem)
-        panels = len(stems) - 1 - ("ground_track" in stems)
-        return stems, share_figures(stems, panels, max(1, self.count))
-
-    def prepare(self, problem) -> None:
-        """Have each process make and draw once the figures it will draw for a solve of
-        ``problem``, while the problem is solved (no wait)."""
-        stems, shares = self._shares(problem)
-        panels = len(stems) - 1 - ("ground_track" in stems)
-        for k, share in enumerate(shares[:self.count]):
-            payload = dict(panels=panels if "overview" in share else None,
-                           single=any(s not in ("overview", "ground_track") for s in share))
-            try:
-                self._workers[k][1].send(("prepare", payload))
-            except Exception:  # the process is gone: its share is drawn here
-                pass
+        self._send(("prepare", dict(panels=_panels(stems), single=len(stems) > 1)))
 
     def plot_result(self, result, out_dir, *, prefix: str = "") -> PendingPlots | None:
         """Start drawing the figures of a solve result (those of
         :func:`ascentplan.output.plots.plot_result`); None when it has no replay."""
         if result.trajectory is None:
             return None
-        from ascentplan.output.figure_list import plot_arguments
+        from ascentplan.output.figure_list import figure_stems, plot_arguments
 
-        arguments = dict(plot_arguments(result), out_dir=str(out_dir), prefix=prefix)
-        stems, shares = self._shares(arguments["problem"])
-        jobs = []
-        for k, share in enumerate(shares):
-            job = dict(arguments, stems=share)
-            jobs.append((k if self._send(k, job) else None, job))
+        job = dict(plot_arguments(result), out_dir=str(out_dir), prefix=prefix)
+        stems = figure_stems(job["problem"])
+        shares = share_figures(stems, _panels(stems), self._shares)
+        sent = not self._busy and self._send(("draw", (job, shares)))
+        self._busy = self._busy or sent
         files = [Path(out_dir) / f"{prefix}{stem}.png" for stem in stems]
-        return PendingPlots(self, jobs, files)
+        return PendingPlots(self, job, sent, files)
 
-    def _send(self, k: int, job) -> bool:
-        if k >= self.count or k in self._busy:
-            return False
-        try:
-            self._workers[k][1].send(("draw", job))
-        except Exception:  # the process is gone, or the job cannot be sent: drawn here
-            return False
-        self._busy.add(k)
-        return True
-
-    def answer(self, k: int):
-        """The answer of worker ``k`` to its job: ("ok", files), ("error", text), or
-        None when the process ended without one."""
-        process, conn = self._workers[k]
+    def answer(self):
+        """The process's answer to its job: ("ok", stems), ("error", text), or None
+        when it ended without one or took too long."""
+        process, conn = self._workers[0]
         waited = 0.0
         try:
             # a process that died says so at once (end of file); one that hangs is
@@ -244,16 +309,16 @@ class PlotWorkers:
                 waited += 0.5
                 if not process.is_alive() or waited >= _ANSWER_WAIT:
                     return None
-            self._busy.discard(k)
+            self._busy = False
             return conn.recv()
         except (EOFError, OSError):
             return None
 
     def close(self, wait: bool = True) -> None:
-        """End the processes: one drawing is waited for (unless ``wait`` is False), an
-        idle one (still warming up, or done) is stopped at once."""
-        for k, (process, conn) in enumerate(self._workers):
-            if wait and k in self._busy:
+        """End the process: a drawing is waited for (unless ``wait`` is False); an idle
+        process (still warming up, or done) is stopped at once."""
+        for process, conn in self._workers:
+            if wait and self._busy:
                 try:
                     conn.send(None)
                 except (OSError, ValueError):
@@ -264,4 +329,4 @@ class PlotWorkers:
             process.join(_EXIT_WAIT)
             conn.close()
         self._workers = []
-        self._busy.clear()
+        self._busy = False
