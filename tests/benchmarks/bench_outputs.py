@@ -36,7 +36,12 @@ from _common import (  # noqa: E402
 QUICK_EXAMPLES = ("goddard", "small_launcher")
 
 
-def _point(name: str) -> None:
+#: whether a drawing process is used: as the verb decides (when a processor is idle),
+#: always, or never (every figure drawn in the main process)
+DRAWING_PROCESS = {"auto": None, "on": 1, "off": 0}
+
+
+def _point(name: str, drawing: str = "auto") -> None:
     from ascentplan.output.plot_workers import PlotWorkers
     from ascentplan.pipeline import solve_problem, write_outputs
     from ascentplan.problem.loader import load_problem
@@ -46,7 +51,7 @@ def _point(name: str) -> None:
     # as the solve verb does: the drawing processes start just before the solve, and
     # their start is counted with the solve
     t0 = time.perf_counter()
-    with PlotWorkers(problem) as plotter:
+    with PlotWorkers(problem, count=DRAWING_PROCESS[drawing]) as plotter:
         result = solve_problem(problem, out_dir=None)
         solve_s = time.perf_counter() - t0
         _write(name, problem, result, solve_s, plotter, write_outputs,
@@ -73,16 +78,19 @@ def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__)
     parser.add_argument("--quick", action="store_true", help="two examples, one repeat")
     parser.add_argument("--repeats", type=int, default=3)
-    parser.add_argument("--point", metavar="EXAMPLE", help=argparse.SUPPRESS)
+    parser.add_argument("--drawing-process", choices=sorted(DRAWING_PROCESS), default="auto",
+                        help="draw the plots in a drawing process as the solve verb decides "
+                             "(auto), always (on) or never (off)")
+    parser.add_argument("--point", nargs="+", metavar="EXAMPLE", help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
     if args.point:
-        _point(args.point)
+        _point(*args.point)
         return 0
     names = QUICK_EXAMPLES if args.quick else sorted(p.stem for p in PROBLEMS.glob("*.yaml"))
     repeats = 1 if args.quick else max(1, args.repeats)
     rows, goals = [], []
     for name in names:
-        runs = [run_point(__file__, [name]) for _ in range(repeats)]
+        runs = [run_point(__file__, [name, args.drawing_process]) for _ in range(repeats)]
         failed = [r["error"] for r in runs if "error" in r]
         if failed:
             rows.append({"example": name, "error": failed[0]})
@@ -91,6 +99,7 @@ def main(argv=None) -> int:
         row = {"example": name, "status": runs[0]["status"], "pngs": runs[0]["pngs"],
                "solve_s": median([r["solve_s"] for r in runs]),
                "outputs_s": median([r["outputs_s"] for r in runs]),
+               "drawing_process_runs": sum(r["drawing_processes"] for r in runs),
                "runs": runs}
         row["outputs_over_solve"] = row["outputs_s"] / row["solve_s"]
         rows.append(row)
@@ -100,7 +109,8 @@ def main(argv=None) -> int:
                       "met": bool(row["outputs_s"] <= row["solve_s"]),
                       "evidence": f"median solve {row['solve_s']:.2f} s, outputs "
                                   f"{row['outputs_s']:.2f} s over {repeats} run(s)"})
-    data = {"machine": machine_info(), "repeats": repeats, "examples": rows, "goals": goals}
+    data = {"machine": machine_info(), "repeats": repeats, "examples": rows, "goals": goals,
+            "drawing_process": args.drawing_process}
     return finish("outputs", data, args.quick)
 
 
