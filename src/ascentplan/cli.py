@@ -258,7 +258,7 @@ def _cmd_solve(args) -> int:
 
     out = _results_folder(problem, args.out)
     _make_folder(out)
-    # the plots' drawing processes start now: they are ready when the solve ends
+    # a drawing process starts now (if a processor is idle): ready when the solve ends
     with PlotWorkers(problem) as plotter:
         result = solve_problem(problem, split_map=args.split_map, out_dir=out)
         write_outputs(result, out, plotter=plotter)
