@@ -38,6 +38,8 @@ MAX_SHARES = 2
 OVERVIEW_WEIGHT = 0.5
 #: how long a closing worker may take to exit before it is stopped [s]
 _EXIT_WAIT = 2.0
+#: how much lower the drawing process's priority is than the main process's (nice)
+_NICENESS = 10
 #: longest wait for a process's figures [s]: past it the main process draws them
 _ANSWER_WAIT = 300.0
 
@@ -109,6 +111,12 @@ def _serve(conn) -> None:
     """
     # Ctrl-C reaches the whole process group: the main process ends its workers itself
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+    # a lower priority than the solve's: when the machine has no idle processor after
+    # all, the warm-up waits rather than slow the solve down
+    try:
+        os.nice(_NICENESS)
+    except (AttributeError, OSError):  # not on every system
+        pass
     canvases = None
     try:
         # the plotting code, and the replay's module that a job's flight is read into
