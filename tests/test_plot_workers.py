@@ -140,12 +140,12 @@ def test_figures_drawn_again_have_the_pixels_of_new_ones(goddard_result, tmp_pat
 
 
 def test_a_busy_machine_gets_no_drawing_process(goddard_result, tmp_path, monkeypatch):
-    monkeypatch.setattr(plot_workers, "_idle_processors", lambda: 0.5)
+    monkeypatch.setattr(plot_workers, "_idle_processors", lambda: 0.3)
     reference = plot_result(goddard_result, tmp_path / "here")
     with PlotWorkers(goddard_result.problem) as workers:
         assert workers.count == 0
         paths = workers.plot_result(goddard_result, tmp_path / "there").wait()
     _same_pictures(paths, reference)
-    monkeypatch.setattr(plot_workers, "_idle_processors", lambda: 1.2)
+    monkeypatch.setattr(plot_workers, "_idle_processors", lambda: 0.8)
     with PlotWorkers() as workers:
         assert workers.count == 1

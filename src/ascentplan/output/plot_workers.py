@@ -38,6 +38,10 @@ MAX_SHARES = 2
 OVERVIEW_WEIGHT = 0.5
 #: how long a closing worker may take to exit before it is stopped [s]
 _EXIT_WAIT = 2.0
+#: idle processors (usable ones less the 1-minute load average) needed to start the
+#: drawing process: half a processor, as the average lags and counts this process
+#: itself (back-to-back solves on an otherwise idle two-core machine read 1.0 to 1.2)
+IDLE_NEEDED = 0.5
 #: how much lower the drawing process's priority is than the main process's (nice)
 _NICENESS = 10
 #: longest wait for a process's figures [s]: past it the main process draws them
@@ -229,9 +233,10 @@ class PlotWorkers:
         figures it will draw (:meth:`prepare`).
     count : int, optional
         1 starts the drawing process; 0 starts none, and every figure is then drawn in
-        the main process. By default 1 when a processor has been idle (load average at
-        least one below the usable processors), else 0: on a busy machine the process's
-        start would only take time from the solve.
+        the main process. By default 1 when about a processor has been idle (the load
+        average, which counts this process and the last minute's runs, at least
+        :data:`IDLE_NEEDED` below the usable processors), else 0: on a busy machine the
+        process would only take time from the solve.
     shares : int, optional
         Processes drawing at once (the drawing process and forked copies of it); by
         default :data:`MAX_SHARES`, fewer on a machine with fewer usable processors.
@@ -239,7 +244,7 @@ class PlotWorkers:
 
     def __init__(self, problem=None, count: int | None = None, shares: int | None = None):
         if count is None:
-            count = 1 if _idle_processors() >= 1.0 else 0
+            count = 1 if _idle_processors() >= IDLE_NEEDED else 0
         self._shares = max(1, min(MAX_SHARES, _usable_cpus()) if shares is None else shares)
         self._workers = []
         self._busy = False
