@@ -233,7 +233,7 @@ class PlotWorkers:
         figures it will draw (:meth:`prepare`).
     count : int, optional
         1 starts the drawing process; 0 starts none, and every figure is then drawn in
-        the main process. By default 1 when about a processor has been idle (the load
+        the main process. By default 1 when half a processor has been idle (the load
         average, which counts this process and the last minute's runs, at least
         :data:`IDLE_NEEDED` below the usable processors), else 0: on a busy machine the
         process would only take time from the solve.
