@@ -253,18 +253,15 @@ SOLVE_EXIT = {"optimal": 0, "not_verified": 1, "infeasible": 3, "failed": 4}
 
 def _cmd_solve(args) -> int:
     problem = load_problem(args.file)
-    from ascentplan.pipeline import format_result, solve, write_outputs
-    from ascentplan.staging.coupled import solve_with_split_comparison
+    from ascentplan.output.plot_workers import PlotWorkers
+    from ascentplan.pipeline import format_result, solve_problem, write_outputs
 
     out = _results_folder(problem, args.out)
     _make_folder(out)
-    if problem.mass_split is not None:
-        chosen = problem.mass_split.map_points if args.split_map is None else args.split_map
-        points = chosen or None  # --split-map 0 switches off a map the file asks for
-        result = solve_with_split_comparison(problem, map_points=points, out_dir=out)
-    else:
-        result = solve(problem)
-    write_outputs(result, out)
+    # a drawing process starts now (if a processor is idle): ready when the solve ends
+    with PlotWorkers(problem) as plotter:
+        result = solve_problem(problem, split_map=args.split_map, out_dir=out)
+        write_outputs(result, out, plotter=plotter)
     _show(format_result(result))
     _show(f"results written to {out}/")
     return SOLVE_EXIT[result.status]

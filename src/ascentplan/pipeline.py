@@ -547,8 +547,25 @@ def _infeasibility_lines(block: dict | None) -> list[str]:
     return lines
 
 
-def write_outputs(result: Result, out_dir) -> list:
-    """Write summary.json, trajectory.csv, schedule.csv, the plots and report.html."""
+def solve_problem(problem: Problem, *, split_map: int | None = None, out_dir=None) -> Result:
+    """Solve as the ``solve`` verb does: with the stage-mass split comparison when the
+    problem has ``mass_split`` (and the map of ``split_map`` points per axis, by default
+    the file's ``map_points``, 0 for none, drawn into ``out_dir``), else :func:`solve`."""
+    if problem.mass_split is None:
+        return solve(problem)
+    from ascentplan.staging.coupled import solve_with_split_comparison
+
+    chosen = problem.mass_split.map_points if split_map is None else split_map
+    # 0 switches off a map the file asks for
+    return solve_with_split_comparison(problem, map_points=chosen or None, out_dir=out_dir)
+
+
+def write_outputs(result: Result, out_dir, plotter=None) -> list:
+    """Write summary.json, trajectory.csv, schedule.csv, the plots and report.html.
+
+    ``plotter``, a :class:`~ascentplan.output.plot_workers.PlotWorkers`, draws the plots
+    in its processes while the other files are written; without it they are drawn here.
+    """
     from pathlib import Path
 
     from ascentplan.output.files import (
@@ -561,6 +578,7 @@ def write_outputs(result: Result, out_dir) -> list:
 
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
+    pending = plotter.plot_result(result, out) if plotter is not None else None
     written = []
     # with the problem's inputs and the run's provenance, so the folder stands alone
     summary = solve_summary(result)
@@ -573,10 +591,14 @@ def write_outputs(result: Result, out_dir) -> list:
     write_schedule_csv(result.schedule, out / "schedule.csv", phase_plan(result.problem),
                        header=csv_header("schedule", *verdict))
     written.append(out / "schedule.csv")
-    from ascentplan.output.plots import plot_result
     from ascentplan.output.report import write_report
 
-    pngs = list(plot_result(result, out))
+    if pending is not None:
+        pngs = pending.wait()
+    else:
+        from ascentplan.output.plots import plot_result
+
+        pngs = list(plot_result(result, out))
     if result.extra.get("mass_split", {}).get("map") and (out / "split_map.png").exists():
         pngs.append(out / "split_map.png")
     written += pngs

@@ -393,12 +393,16 @@ def _outputs_section(data):
              "Regenerate: `python tests/benchmarks/bench_outputs.py`", ""] + _machine_lines(data)
     lines += [f"Each example in a fresh interpreter, {data['repeats']} run(s), medians: the "
               "solve (with the split comparison and map where the file asks) against writing "
-              "summary.json, the CSV files, every PNG and report.html.", ""]
+              "summary.json, the CSV files, every PNG and report.html. Drawing process: "
+              f"{data.get('drawing_process', 'auto')} (auto: started, as the solve verb does, "
+              "only when a processor was idle; the last column counts the runs that had one)."
+              "", ""]
     lines += _table(["example", "status", "PNG files", "solve [s]", "outputs [s]",
-                     "outputs / solve"],
+                     "outputs / solve", "runs with a drawing process"],
                     [[r["example"], r.get("status", r.get("error")), len(r.get("pngs", [])),
                       _f(r.get("solve_s")), _f(r.get("outputs_s")),
-                      _f(r.get("outputs_over_solve"))] for r in data["examples"]])
+                      _f(r.get("outputs_over_solve")),
+                      r.get("drawing_process_runs", "-")] for r in data["examples"]])
     return lines + [""] + _goal_lines(data.get("goals", []))
 
 

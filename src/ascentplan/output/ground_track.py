@@ -7,11 +7,8 @@ from __future__ import annotations
 from pathlib import Path
 
 import numpy as np
-from matplotlib.backends.backend_agg import FigureCanvasAgg
-from matplotlib.figure import Figure
 
 from ascentplan.models.dynamics import dynamics_kind
-from ascentplan.output.figure_marks import save_png, stamp_figure
 
 
 def has_ground_track(problem) -> bool:
@@ -32,6 +29,12 @@ def ground_track(problem, trajectory) -> tuple[np.ndarray, np.ndarray]:
 
 def plot_ground_track(problem, trajectory, path, stamp) -> Path:
     """Write the ground-track PNG to ``path``; ``stamp`` as for the other figures."""
+    # matplotlib only here: the figure list asks has_ground_track without drawing
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    from ascentplan.output.figure_marks import save_png, stamp_figure
+
     lon, lat = ground_track(problem, trajectory)
     fig = Figure(figsize=(7.0, 4.2))
     FigureCanvasAgg(fig)

@@ -9,19 +9,28 @@ results folder and the report alike.
 
 from __future__ import annotations
 
-from collections.abc import Callable
-from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
-# Figure with its own Agg canvas never touches pyplot's global state, so plotting works
-# headless and inside a user's interactive session alike, and needs no explicit close.
-from matplotlib.backends.backend_agg import FigureCanvasAgg
+# Figures with their own Agg canvas (output/canvases.py) never touch pyplot's global
+# state, so plotting works headless and inside a user's interactive session alike.
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 
 from ascentplan.models.dynamics import dynamics_kind, flight_model, flight_quantities, propulsion
+from ascentplan.output.canvases import Canvases, OverviewCanvas, PanelCanvas
+from ascentplan.output.figure_list import (
+    FIGURES,
+    LIMIT_OF_QUANTITY,
+    PANELS,
+    Panel,
+    figure_stems,
+    order_figures,
+    panels_for,
+    plot_arguments,
+    result_nodes,
+)
 from ascentplan.output.figure_marks import (
     DPI,
     PngWriter,
@@ -32,20 +41,16 @@ from ascentplan.output.figure_marks import (
     stamp_figure,
     status_stamp,
 )
-from ascentplan.output.ground_track import has_ground_track, plot_ground_track
+from ascentplan.output.ground_track import plot_ground_track
 from ascentplan.output.split_map_plot import plot_split_map
 from ascentplan.output.text import printable
 from ascentplan.problem.limits import LIMITS
 from ascentplan.problem.model import Problem, phase_plan
 
-__all__ = ["DPI", "FIGURES", "PANELS", "order_figures", "plot_result", "plot_split_map",
-           "plot_trajectory", "result_nodes"]
+__all__ = ["DPI", "FIGURES", "PANELS", "draw_figures", "figure_stems", "order_figures",
+           "plot_arguments", "plot_result", "plot_split_map", "plot_trajectory", "result_nodes"]
 
 
-_PANEL_SIZE = (7.0, 4.2)  # single-quantity figure [in]
-_CELL_SIZE = (5.0, 3.4)  # one cell of the overview grid [in]
-#: height of the overview's bands [in]: title and status above, legend and caution below
-_OVERVIEW_BANDS = 1.1
 _REPLAY_STYLE = dict(color="C0", linewidth=1.6)
 _AIR_RELATIVE_STYLE = dict(color="C2", linewidth=1.4, linestyle="--")
 _NODE_STYLE = dict(color="C1", marker="o", markersize=3.2, linestyle="none")
@@ -56,59 +61,11 @@ _EVENT_MERGE_FRACTION = 0.004
 _EVENT_BAND = 0.14
 
 
-@dataclass(frozen=True)
-class _Panel:
-    """One plotted quantity: file stem, title, axis label and which flights show it."""
-
-    key: str
-    title: str
-    ylabel: str
-    shown: Callable[[Problem], bool]
-
-
-def _always(problem: Problem) -> bool:
-    return True
-
-
-def _steered(problem: Problem) -> bool:
-    return dynamics_kind(problem.dynamics).steered
-
-
-def _with_q_alpha_limit(problem: Problem) -> bool:
-    spec = LIMITS["max_q_alpha"]
-    return (spec.applies_to(dynamics_kind(problem.dynamics))
-            and getattr(problem.limits, spec.name) is not None)
-
-
-#: the limit on each limited quantity: its panel is drawn in the limit's user unit, so
-#: that the curves and the bound line share one axis
-_LIMIT_OF_QUANTITY = {spec.quantity: spec for spec in LIMITS.values()}
-
-
-def _unit(quantity: str) -> str:
-    return _LIMIT_OF_QUANTITY[quantity].unit
-
-
 def _in_limit_unit(quantity: str, values) -> np.ndarray:
     """Values of a limited quantity as its limit measures them, in the limit's user unit."""
-    spec = _LIMIT_OF_QUANTITY[quantity]
+    spec = LIMIT_OF_QUANTITY[quantity]
     return spec.to_user(spec.measured(np.asarray(values, dtype=float)))
 
-
-#: the panels in plotting order; ``key`` is also the PNG file stem
-PANELS = (
-    _Panel("altitude", "Altitude", f"altitude [{_unit('altitude')}]", _always),
-    _Panel("speed", "Speed", "speed [m/s]", _always),
-    _Panel("dynamic_pressure", "Dynamic pressure",
-           f"dynamic pressure [{_unit('dynamic_pressure')}]", _always),
-    _Panel("axial_acceleration", "Sensed axial acceleration",
-           f"axial acceleration [{_unit('axial_acceleration')}]", _always),
-    _Panel("q_alpha", "Dynamic pressure times angle of attack",
-           f"|q alpha| [{_unit('q_alpha')}]", _with_q_alpha_limit),
-    _Panel("throttle", "Throttle", "throttle [fraction of full flow]", _always),
-    _Panel("pitch", "Thrust pitch from local horizontal", "pitch [deg]", _steered),
-    _Panel("mass", "Vehicle mass", "mass [t]", _always),
-)
 
 def _quantity(trajectory, name: str) -> np.ndarray:
     return np.asarray(trajectory.quantities[name], dtype=float)
@@ -116,7 +73,7 @@ def _quantity(trajectory, name: str) -> np.ndarray:
 
 def _replay_lines(problem: Problem, trajectory, key: str) -> list[tuple[np.ndarray, dict, str]]:
     """The replay's curves of a panel: (values in plot units, line style, legend label)."""
-    if key in _LIMIT_OF_QUANTITY:
+    if key in LIMIT_OF_QUANTITY:
         return [(_in_limit_unit(key, _quantity(trajectory, key)), _REPLAY_STYLE, "replay")]
     kind = dynamics_kind(problem.dynamics)
     if key == "speed":
@@ -146,23 +103,6 @@ def _bound(problem: Problem, key: str) -> tuple[float, str] | None:
             value = spec.to_user(float(bound))
             return value, f"{spec.label} {value:.4g} {spec.unit}"
     return None
-
-
-#: every figure a results folder holds, by file stem, in the one order in which the
-#: results folder lists them and the report shows them: the overview, the time histories
-#: in :data:`PANELS` order, then the split map (drawn by a stage-mass split with its map)
-FIGURES = ("overview", *(p.key for p in PANELS), "ground_track", "split_map")
-
-
-def order_figures(paths) -> list[Path]:
-    """PNG paths in :data:`FIGURES` order (a file-name prefix is allowed); others last."""
-    def key(path: Path) -> tuple:
-        stem = path.stem
-        # the longest name ending the stem, so that "q_alpha" is not taken for another
-        found = [(len(name), i) for i, name in enumerate(FIGURES) if stem.endswith(name)]
-        return (max(found)[1], stem) if found else (len(FIGURES), stem)
-
-    return sorted((Path(p) for p in paths), key=key)
 
 
 def _attitude_quantities(states, controls, model, prop) -> set:
@@ -205,7 +145,7 @@ def _node_quantities(problem: Problem, nodes) -> list[dict]:
             f = flight_quantities(states, controls, model, prop)
             hidden = set() if powered else _attitude_quantities(states, controls, model, prop)
             values.update({quantity: _in_limit_unit(quantity, f[quantity])
-                           for quantity in _LIMIT_OF_QUANTITY
+                           for quantity in LIMIT_OF_QUANTITY
                            if quantity in f and quantity not in hidden})
             values["speed"] = np.asarray(model.kind.speed(states))
             values["mass"] = model.kind.mass(states) / 1000.0
@@ -254,7 +194,7 @@ def _draw_events(ax, events, *, legend_labels: bool) -> None:
             ax.axvline(time, gid="event", label=label, **drawn.style)
 
 
-def _draw_panel(ax, problem: Problem, trajectory, panel: _Panel, node_values, events,
+def _draw_panel(ax, problem: Problem, trajectory, panel: Panel, node_values, events,
                 *, label_events: bool, legend: bool) -> None:
     t = np.asarray(trajectory.time, dtype=float)
     for values, style, label in _replay_lines(problem, trajectory, panel.key):
@@ -305,58 +245,20 @@ def _label_events(ax, events) -> None:
                     color="0.25", parse_math=False)
 
 
-def _panels_for(problem: Problem) -> list[_Panel]:
-    return [p for p in PANELS if p.shown(problem)]
-
-
-def _fixed_margins(fig: Figure, *, left: float, right: float, top: float, bottom: float,
-                   **spacing) -> dict:
-    """Subplot parameters for margins given in inches (labels, stamp and caution fit)."""
-    width, height = fig.get_size_inches()
-    return dict(left=left / width, right=1.0 - right / width, top=1.0 - top / height,
-                bottom=bottom / height, **spacing)
-
-
 def _stamp(fig: Figure, problem: Problem, stamp: tuple[str, bool], title: str,
            *, centred: bool) -> None:
     stamp_figure(fig, *stamp)
     # a name is shown as written: no mathtext from a '$' in it
     if centred:
-        fig.suptitle(title, fontsize=12, y=0.995 - 0.24 / fig.get_size_inches()[1],
-                     va="top", parse_math=False)
+        fig.text(0.5, 0.995 - 0.24 / fig.get_size_inches()[1], title, ha="center",
+                 va="top", fontsize=12, parse_math=False)
     else:
         fig.text(0.992, 0.992, title, ha="right", va="top", fontsize=8.5, color="0.3",
                  parse_math=False)
 
 
-class _PanelCanvas:
-    """One figure and axes for the single-panel PNGs, emptied between panels: its axis
-    ticks are made once (a fresh figure makes them again, and its first draw took about
-    1.6 times as long as a redraw, measured on the two-stage panels)."""
-
-    def __init__(self):
-        self.fig = Figure(figsize=_PANEL_SIZE)
-        FigureCanvasAgg(self.fig)
-        self.ax = self.fig.add_subplot()
-        self.fig.subplots_adjust(**_fixed_margins(self.fig, left=0.85, right=0.2, top=0.62,
-                                                  bottom=0.78))
-
-    def empty(self):
-        """The figure and axes with no data, labels or stamps, scaling to new data."""
-        ax = self.ax
-        for artist in [*ax.lines, *ax.texts, *ax.collections, *ax.patches, *self.fig.texts]:
-            artist.remove()
-        if ax.get_legend() is not None:
-            ax.get_legend().remove()
-        ax.set_xlim(auto=True)
-        ax.set_ylim(auto=True)
-        ax.autoscale(True)
-        ax.relim()
-        return self.fig, ax
-
-
 def _panel_figure(problem: Problem, trajectory, key: str, nodes=None, *, stamp=None,
-                  node_values=None, events=None, canvas: _PanelCanvas | None = None) -> Figure:
+                  node_values=None, events=None, canvas: PanelCanvas | None = None) -> Figure:
     """The figure of one panel (``key`` from :data:`PANELS`), not yet saved.
 
     ``stamp`` is (text, trustworthy) from :func:`status_stamp`; by default that of a
@@ -364,7 +266,7 @@ def _panel_figure(problem: Problem, trajectory, key: str, nodes=None, *, stamp=N
     again (emptied first); by default a new one.
     """
     panel = next(p for p in PANELS if p.key == key)
-    fig, ax = (canvas or _PanelCanvas()).empty()
+    fig, ax = (canvas or PanelCanvas()).empty()
     if node_values is None and nodes is not None:
         node_values = _node_quantities(problem, nodes)
     if events is None:
@@ -377,25 +279,23 @@ def _panel_figure(problem: Problem, trajectory, key: str, nodes=None, *, stamp=N
 
 
 def _overview_figure(problem: Problem, trajectory, nodes=None, *, stamp=None,
-                     node_values=None, events=None) -> Figure:
-    """All panels of the flight on one grid: 2x3 (vertical flight) or 3x3 (planar)."""
-    panels = _panels_for(problem)
-    ncols = 3
-    nrows = -(-len(panels) // ncols)
-    fig = Figure(figsize=(_CELL_SIZE[0] * ncols, _CELL_SIZE[1] * nrows + _OVERVIEW_BANDS))
-    FigureCanvasAgg(fig)
+                     node_values=None, events=None,
+                     canvas: OverviewCanvas | None = None) -> Figure:
+    """All panels of the flight on one grid: 2x3 (vertical flight) or 3x3 (planar).
+
+    ``canvas`` is a figure of as many panels to draw on again; by default a new one.
+    """
+    panels = panels_for(problem)
+    kind = dynamics_kind(problem.dynamics)
+    fig, axes = (canvas or OverviewCanvas(len(panels))).empty()
     if node_values is None and nodes is not None:
         node_values = _node_quantities(problem, nodes)
     if events is None:
         events = _event_marks(problem, trajectory)
-    axes = fig.subplots(nrows, ncols, squeeze=False, gridspec_kw=_fixed_margins(
-        fig, left=0.75, right=0.2, top=0.95, bottom=1.25, hspace=0.55, wspace=0.28)).ravel()
     for i, (ax, panel) in enumerate(zip(axes, panels)):
         # event names on the first panel only: nine copies would hide the curves
         _draw_panel(ax, problem, trajectory, panel, node_values, events,
-                    label_events=i == 0, legend=panel.key == "speed" and _steered(problem))
-    for ax in axes[len(panels):]:
-        ax.remove()
+                    label_events=i == 0, legend=panel.key == "speed" and kind.steered)
     handles = [Line2D([], [], **_REPLAY_STYLE, label="replay (forward integration)")]
     if node_values:
         handles.append(Line2D([], [], **_NODE_STYLE, label="optimiser nodes"))
@@ -456,31 +356,41 @@ def plot_trajectory(problem: Problem, trajectory, out_dir, *, nodes=None,
     list of Path
         The files written, in :data:`FIGURES` order (overview first).
     """
+    return draw_figures(problem, trajectory, out_dir, figure_stems(problem), nodes=nodes,
+                        prefix=prefix, status=status)
+
+
+def draw_figures(problem: Problem, trajectory, out_dir, stems, *, nodes=None,
+                 prefix: str = "", status: str | None = None,
+                 canvases: Canvases | None = None) -> list[Path]:
+    """Write the figures named by ``stems`` (from :func:`figure_stems`) as PNG files;
+    the arguments as for :func:`plot_trajectory`, which draws them all. Drawing processes
+    each draw some of them (:mod:`ascentplan.output.plot_workers`) on figures they keep
+    (``canvases``); by default new ones."""
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
+    canvases = canvases or Canvases()
     stamp = _simulation_stamp(trajectory) if status is None else status_stamp(status)
     # computed once for all the figures
     shared = dict(stamp=stamp, events=_event_marks(problem, trajectory),
                   node_values=_node_quantities(problem, nodes) if nodes is not None else None)
-    paths = [out / f"{prefix}{stem}.png" for stem in
-             ("overview", *(panel.key for panel in _panels_for(problem)))]
+    paths = []
     with PngWriter() as writer:
-        save_png(_overview_figure(problem, trajectory, **shared), paths[0], writer=writer)
-        canvas = _PanelCanvas()
-        for panel, path in zip(_panels_for(problem), paths[1:]):
-            fig = _panel_figure(problem, trajectory, panel.key, canvas=canvas, **shared)
+        for stem in stems:
+            path = out / f"{prefix}{stem}.png"
+            if stem == "overview":
+                canvas = canvases.overview(len(panels_for(problem)))
+                fig = _overview_figure(problem, trajectory, canvas=canvas, **shared)
+            elif stem == "ground_track":
+                plot_ground_track(problem, trajectory, path, stamp)
+                paths.append(path)
+                continue
+            else:
+                fig = _panel_figure(problem, trajectory, stem, canvas=canvases.panel(),
+                                    **shared)
             save_png(fig, path, writer=writer)
-    if has_ground_track(problem):
-        paths.append(plot_ground_track(problem, trajectory, out / f"{prefix}ground_track.png",
-                                       stamp))
+            paths.append(path)
     return paths
-
-
-def result_nodes(result) -> list[tuple]:
-    """The optimiser's mesh of a solve result as ``nodes`` for :func:`plot_trajectory`."""
-    sol = result.solution
-    states = getattr(sol, "states", None) or [None] * len(sol.times)
-    return [(t, u, x) for t, u, x in zip(sol.times, sol.controls, states)]
 
 
 def plot_result(result, out_dir, *, prefix: str = "") -> list[Path]:
@@ -503,7 +413,4 @@ def plot_result(result, out_dir, *, prefix: str = "") -> list[Path]:
     """
     if result.trajectory is None:
         return []
-    # the replay flew the optimised masses, so the node quantities must use them too
-    problem = getattr(result, "solved_problem", None) or result.problem
-    return plot_trajectory(problem, result.trajectory, out_dir, nodes=result_nodes(result),
-                           prefix=prefix, status=result.status)
+    return plot_trajectory(out_dir=out_dir, prefix=prefix, **plot_arguments(result))

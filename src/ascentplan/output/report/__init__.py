@@ -41,10 +41,11 @@ def _figure_order() -> tuple[str, ...]:
     """File stems in the order of the plots module's ``FIGURES`` when it has one (one
     order for the solve and for a re-rendered report), else :data:`_PLOT_ORDER`."""
     try:
-        from ascentplan.output import plots
+        # the list of figures, not the drawing code: no matplotlib import for a report
+        from ascentplan.output import figure_list
     except ImportError:
         return _PLOT_ORDER
-    figures = getattr(plots, "FIGURES", None)
+    figures = getattr(figure_list, "FIGURES", None)
     if not figures:
         return _PLOT_ORDER
     stems = []
