@@ -19,6 +19,7 @@ from ascentplan.optimisation.guess import (
     coarse_start,
     guess_from_solution,
     guess_from_trajectory,
+    guess_schedule,
     scales_for,
 )
 from ascentplan.optimisation.infeasibility import Infeasibility, explain
@@ -301,34 +302,9 @@ def _with_solution_masses(problem: Problem, solution: NLPSolution) -> Problem:
     return replace(problem, vehicle=vehicle)
 
 
-def _guess_schedule(problem: Problem):
-    """The schedule flown for the first guess: the default (full throttle, gravity turn),
-    except over a vacuum or with no pitch-over, where a gravity turn never leaves the
-    vertical; there, pitch falls linearly from 90 deg to 0 over the estimated burn time."""
-    from ascentplan.models.atmosphere import Vacuum
-    from ascentplan.problem.model import TimeSchedule
-
-    kind = dynamics_kind(problem.dynamics)
-    if not kind.steered:
-        return None
-    # a flight out of the launch plane always takes the ramp, with its heading along the
-    # target plane (the control law's default): a gravity turn drifts with the wind of
-    # the planet's rotation, and a guess off the plane converged poorly (measured)
-    if not kind.spatial and not isinstance(problem.atmosphere, Vacuum) \
-            and problem.launch.pitch_over > 0:
-        return None
-    rise = problem.launch.vertical_rise
-    total = sum(s.full_throttle_burn_time + s.coast_after for s in problem.vehicle.stages)
-    if problem.launch.in_circular_orbit:
-        # in orbit: thrust along the flight path
-        return TimeSchedule(time=(0.0, max(total, 1.0)), throttle=(1.0, 1.0), pitch=(0.0, 0.0))
-    return TimeSchedule(time=(0.0, max(rise, 1e-3), max(total, rise + 1.0)),
-                        throttle=(1.0, 1.0, 1.0), pitch=(0.5 * np.pi, 0.5 * np.pi, 0.0))
-
-
 def first_guess(problem: Problem, nodes: int):
     """A guess and scales from a forward simulation of the default schedule."""
-    traj = simulate(problem, _guess_schedule(problem),
+    traj = simulate(problem, guess_schedule(problem),
                     coast_to_apogee=problem.objective == "max_apogee")
     guess = guess_from_trajectory(problem, traj, nodes)
     return guess, scales_for(problem, guess)

@@ -116,3 +116,28 @@ def coarse_start(problem: Problem, nodes_per_phase: int, solve_on) -> tuple[Gues
     if solution.status != "optimal":
         return None, solution.iterations
     return guess_from_solution(problem, solution, nodes_per_phase), solution.iterations
+
+
+def guess_schedule(problem: Problem):
+    """The schedule flown for the first guess: the default (full throttle, gravity turn),
+    except over a vacuum or with no pitch-over, where a gravity turn never leaves the
+    vertical; there, pitch falls linearly from 90 deg to 0 over the estimated burn time."""
+    from ascentplan.models.atmosphere import Vacuum
+    from ascentplan.problem.model import TimeSchedule
+
+    kind = dynamics_kind(problem.dynamics)
+    if not kind.steered:
+        return None
+    # a flight out of the launch plane always takes the ramp, with its heading along the
+    # target plane (the control law's default): a gravity turn drifts with the wind of
+    # the planet's rotation, and a guess off the plane converged poorly (measured)
+    if not kind.spatial and not isinstance(problem.atmosphere, Vacuum) \
+            and problem.launch.pitch_over > 0:
+        return None
+    rise = problem.launch.vertical_rise
+    total = sum(s.full_throttle_burn_time + s.coast_after for s in problem.vehicle.stages)
+    if problem.launch.in_circular_orbit:
+        # in orbit: thrust along the flight path
+        return TimeSchedule(time=(0.0, max(total, 1.0)), throttle=(1.0, 1.0), pitch=(0.0, 0.0))
+    return TimeSchedule(time=(0.0, max(rise, 1e-3), max(total, rise + 1.0)),
+                        throttle=(1.0, 1.0, 1.0), pitch=(0.5 * np.pi, 0.5 * np.pi, 0.0))
