@@ -24,6 +24,16 @@ FLIGHT_CAP = 3.0 * 3600.0
 _LONGEST_COAST = 30.0 * 86400.0
 #: a depletion this much of the scheduled burn (or 1 s) before its end is a flame-out
 FLAMEOUT_FRACTION = 1e-6
+#: ... and at least this long before it [s]: the time tolerance of a phase end in
+#: verification, below which a depletion is the burnout itself, met a rounding early
+FLAMEOUT_MARGIN = 1e-3
+
+
+def runs_dry_early(t_end: float, t: float, t_start: float) -> bool:
+    """Whether a depletion at ``t`` [s] is a flame-out before a burn scheduled from
+    ``t_start`` to ``t_end`` [s]: earlier than :data:`FLAMEOUT_FRACTION` of the burn (or 1 s)
+    and than :data:`FLAMEOUT_MARGIN`."""
+    return t_end - t > max(FLAMEOUT_MARGIN, FLAMEOUT_FRACTION * max(1.0, t_end - t_start))
 #: impact is declared this far below the launch altitude [m]
 IMPACT_MARGIN = 1.0
 
@@ -283,8 +293,7 @@ class _Integration:
 
     def _runs_dry_early(self) -> bool:
         """Whether a depletion now is a flame-out before the scheduled end."""
-        return self.timed and (self.t_end - self.t
-                               > FLAMEOUT_FRACTION * max(1.0, self.t_end - self.run.t0))
+        return self.timed and runs_dry_early(self.t_end, self.t, self.run.t0)
 
 
 def fly_phase(problem, law, rates, k, phase, t0, y0, options, exhausted, plan=None):

@@ -16,11 +16,11 @@ from ascentplan.problem.model import Phase, phase_plan
 from ascentplan.problem.plan import aboard_beyond_core
 from ascentplan.replay.budget import LOSS_NAMES, LOSS_QUANTITIES, burnout_budget
 from ascentplan.replay.phases import (
-    FLAMEOUT_FRACTION,
     FLIGHT_CAP,
     IMPACT_MARGIN,
     SAMPLES_PER_PHASE,
     fly_phase,
+    runs_dry_early,
 )
 from ascentplan.replay.rates import Rates
 from ascentplan.replay.schedule import (
@@ -232,8 +232,7 @@ def _close_powered(problem, k, phase, run, t_sched, exhausted, events, y, plan=N
             problem, scheduled_end=t_sched, propellant_remaining=0.0))
     if run.ended_by == "depletion":
         exhausted.add(stage)
-        early = (t_sched is not None and t_sched - t > FLAMEOUT_FRACTION
-                 * max(1.0, t_sched - run.t0))
+        early = t_sched is not None and runs_dry_early(t_sched, t, run.t0)
         if early or phase.kind == "rise":
             events.append(_event_record("flameout", t, k, stage, x, problem,
                                         scheduled_end=t_sched, propellant_remaining=remaining))
