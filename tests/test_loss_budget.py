@@ -141,3 +141,19 @@ def test_vertical_budget_closes_with_constant_gravity():
     assert 0.0 <= losses["steering"] < 1e-5
     assert losses["drag"] > 1.0 and losses["back_pressure"] > 1.0
     assert losses["achieved"] == pytest.approx(traj.burnout_state()[1], rel=1e-12)
+
+
+def test_three_dimensional_budget_closes_with_j2():
+    # with J2 the field is not central: the gravity loss is the whole field resolved
+    # along the velocity, and the budget closes as in the plane (exact identity of
+    # d|v|/dt = a . v/|v|; common practice)
+    from dataclasses import replace
+    from pathlib import Path
+
+    from ascentplan import load_problem
+
+    root = Path(__file__).resolve().parents[1] / "problems"
+    problem = load_problem(root / "medium_launcher_transfer.yaml")
+    assert problem.planet.j2 > 0.0
+    losses = simulate(replace(problem, schedule=None)).losses
+    assert abs(_closure(losses)) < 1e-6 * losses["ideal"]

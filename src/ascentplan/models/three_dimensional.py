@@ -200,6 +200,9 @@ class ThreeDimensional(DynamicsKind):
                     q_alpha=f["dynamic_pressure"] * alpha, pitch=pitch, heading=heading,
                     latitude=kin["latitude"],
                     thrust_along_velocity=f["thrust"] * _dot(d, v) / speed,
+                    # what gravity takes from the speed: the whole field (J2 included)
+                    # resolved along the inertial velocity, for the loss budget
+                    gravity_along_velocity=-_dot(kin["gravity_vector"], v) / speed,
                     drag_along_velocity=d_over_w * _dot(w, v) / speed)
 
     def flight_quantities(self, x, u, model, prop) -> dict:

@@ -65,7 +65,9 @@ def loss_rates(x, u, model, prop) -> list:
     sin_gamma = f["radial_speed"] / speed
     return [
         f["gross_thrust"] / mass,
-        f["gravity"] * sin_gamma,
+        # a kind that resolves its gravity field along the velocity says so (out of a
+        # plane, with J2); otherwise the central field's radial part
+        f["gravity_along_velocity"] if "gravity_along_velocity" in f else f["gravity"] * sin_gamma,
         f["drag_along_velocity"] / mass,
         f["thrust"] / mass - f["thrust_along_velocity"] / mass,
         # nozzle back-pressure: what the ambient pressure takes from the vacuum thrust
