@@ -86,8 +86,34 @@ def _stage_record(vehicle: Vehicle, i: int) -> dict:
         "propellant_reserve_kg": float(s.reserve_mass),
         "structural_ratio": float(s.ratio_of_structure),
         "coast_after_s": float(s.coast_after),
+        "restarts": int(s.restarts),
+        "coast_between_burns_s": ([float(s.restart_coast_min), float(s.restart_coast_max)]
+                                  if s.restarts else None),
         "ignition_mass_kg": float(vehicle.ignition_mass(i)),
     }
+
+
+def _booster_record(vehicle: Vehicle, g) -> dict:
+    """One booster group as written (figures per booster), SI units."""
+    return {
+        "name": g.name, "stage": vehicle.stages[g.stage].name, "count": int(g.count),
+        "propellant_mass_kg": float(g.propellant_mass), "dry_mass_kg": float(g.dry_mass),
+        "thrust_vacuum_N": float(g.thrust_vacuum), "isp_vacuum_s": float(g.isp_vacuum),
+        "nozzle_exit_area_m2": float(g.nozzle_exit_area), "throttle": float(g.throttle),
+        "throttle_range": ([float(g.throttle_min), float(g.throttle_max)]
+                           if g.frees_setting else None),
+        "ignition": "liftoff" if g.ignition is None else f"after {g.ignition}",
+        "burn_time_s": float(g.burn_time),
+    }
+
+
+def _fairing_record(vehicle: Vehicle) -> dict | None:
+    f = vehicle.fairing
+    if f is None:
+        return None
+    return {"mass_kg": float(f.mass), "during": vehicle.stages[f.stage].name,
+            "jettison_time_s": _optional(f.time),
+            "jettison_heat_flux_W_m2": _optional(f.heat_flux_bound)}
 
 
 def _optional(value):
@@ -190,7 +216,9 @@ def problem_inputs(problem: Problem) -> dict:
                       "description": OBJECTIVES.get(problem.objective, "")},
         "vehicle": {"payload_mass_kg": float(vehicle.payload_mass),
                     "liftoff_mass_kg": float(vehicle.liftoff_mass),
-                    "stages": [_stage_record(vehicle, i) for i in range(len(vehicle.stages))]},
+                    "stages": [_stage_record(vehicle, i) for i in range(len(vehicle.stages))],
+                    "boosters": [_booster_record(vehicle, g) for g in vehicle.boosters],
+                    "fairing": _fairing_record(vehicle)},
         "site": _site_record(problem),
         "target": _target_record(problem),
         "limits": _limit_records(problem),

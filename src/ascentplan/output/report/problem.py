@@ -63,6 +63,38 @@ def _vehicle_table(vehicle: dict) -> str:
                  total_rows={len(rows) - 1})
 
 
+def _stack_text(vehicle: dict) -> str:
+    """The booster groups (per booster), the fairing and the restarts, when there are."""
+    parts = []
+    groups = [g for g in vehicle.get("boosters") or [] if isinstance(g, dict)]
+    if groups:
+        rows = [[g.get("name", ""), g.get("stage", ""), num(g.get("count"), 0),
+                 num(g.get("propellant_mass_kg"), 1), num(g.get("dry_mass_kg"), 1),
+                 num(g.get("thrust_vacuum_N"), 2, 1000.0), num(g.get("isp_vacuum_s"), 1),
+                 (f"{num(g['throttle_range'][0], 2)} - {num(g['throttle_range'][1], 2)}"
+                  if g.get("throttle_range") else num(g.get("throttle"), 2)),
+                 g.get("ignition", ""), num(g.get("burn_time_s"), 1)] for g in groups]
+        parts.append(table(["booster group", "beside", "count", "propellant [kg]",
+                            "dry mass [kg]", "vacuum thrust [kN]", "vacuum Isp [s]",
+                            "setting", "ignition", "burn [s]"], rows,
+                           numeric={2, 3, 4, 5, 6, 9}))
+    fairing = vehicle.get("fairing")
+    if isinstance(fairing, dict):
+        when = (f"at {num(fairing.get('jettison_time_s'), 1)} s"
+                if fairing.get("jettison_time_s") is not None else
+                f"once the heat flux stays below "
+                f"{num(fairing.get('jettison_heat_flux_W_m2'), 1)} W/m^2")
+        parts.append(f"<p>Fairing: {esc(num(fairing.get('mass_kg'), 1))} kg, dropped during "
+                     f"the burn of {esc(str(fairing.get('during', '')))} {esc(when)}.</p>")
+    for s in vehicle.get("stages") or []:
+        if isinstance(s, dict) and s.get("restarts"):
+            lo, hi = s.get("coast_between_burns_s") or [None, None]
+            parts.append(f"<p>Restarts: {esc(str(s.get('name', '')))} burns "
+                         f"{int(s['restarts']) + 1} times, each coast {esc(num(lo, 0))} to "
+                         f"{esc(num(hi, 0))} s.</p>")
+    return "\n".join(parts)
+
+
 def _site_rows(site: dict) -> list[tuple[str, str]]:
     return [("planet", str(site.get("planet", "n/a"))),
             ("pad altitude [m]", num(site.get("altitude_m"), 1)),
@@ -131,8 +163,9 @@ def problem_section(summary: dict) -> str:
         return ""
     provenance = summary.get("provenance") if isinstance(summary.get("provenance"),
                                                          dict) else {}
+    vehicle = inputs.get("vehicle") or {}
     parts = [key_values(_source_rows(inputs, provenance)),
-             "<h3>Vehicle (as written)</h3>", _vehicle_table(inputs.get("vehicle") or {}),
+             "<h3>Vehicle (as written)</h3>", _vehicle_table(vehicle), _stack_text(vehicle),
              "<h3>Launch site</h3>", key_values(_site_rows(inputs.get("site") or {})),
              "<h3>Target at burnout</h3>", _target_text(inputs.get("target")),
              "<h3>Limits</h3>", _limits_text(inputs.get("limits") or []),
