@@ -6,6 +6,8 @@ Everything here is a pure function of the problem and the phase; the NLP
 
 from __future__ import annotations
 
+import functools
+
 import casadi as ca
 import numpy as np
 
@@ -98,6 +100,9 @@ def last_of_stage(phases: list[Phase], j: int) -> bool:
 def node_function(model, quantities) -> ca.Function:
     """SX Function (x_phys, u, engine) -> (xdot, [the flight quantities named]).
 
+    Built once per model and list of quantities (phases of one NLP and NLPs of one model
+    share it; a model holding unhashable data builds it each time).
+
     ``engine`` is [vacuum thrust [N], exhaust speed [m/s], nozzle exit area [m^2], drag
     scale [-], boosters' thrust [N], mass flow [kg/s] and exit area [m^2]]: NLP
     parameters (or expressions of them), so that their multipliers price
@@ -109,6 +114,13 @@ def node_function(model, quantities) -> ca.Function:
     quantities : sequence of str
         Keys of :func:`ascentplan.models.dynamics.flight_quantities`, one row each.
     """
+    try:
+        return _cached_node_function(model, tuple(quantities))
+    except TypeError:  # a model holding unhashable data (e.g. numpy tables)
+        return _build_node_function(model, tuple(quantities))
+
+
+def _build_node_function(model, quantities: tuple) -> ca.Function:
     x = ca.SX.sym("x", model.n_states)
     u = ca.SX.sym("u", model.n_controls)
     engine = ca.SX.sym("prop", 7)
@@ -128,3 +140,6 @@ def node_function(model, quantities) -> ca.Function:
     n_x = xdot.shape[0]
     xdot, Q = ca.vertsplit(ca.cse(ca.vertcat(xdot, Q)), [0, n_x, n_x + Q.shape[0]])
     return ca.Function("node", [x, u, engine], [xdot, Q])
+
+
+_cached_node_function = functools.lru_cache(maxsize=64)(_build_node_function)

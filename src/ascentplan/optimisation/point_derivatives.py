@@ -63,29 +63,63 @@ def _broadcast(expr, n: int):
     return ca.repmat(expr, 1, n) if expr.shape[1] == 1 and n > 1 else expr
 
 
+@dataclass(frozen=True)
+class _PointDerivatives:
+    """One point function's SX Jacobian and weighted Hessian in its moving inputs."""
+
+    function: ca.Function  # kept, so that the cache key's id stays its own
+    n_out: int
+    n_z: int
+    jac: ca.Function
+    hess: ca.Function
+    jac_block: ca.Sparsity
+    hess_block: ca.Sparsity
+
+
+#: derivatives by (id of the point function, which inputs move); the point functions are
+#: themselves built once per model (optimisation.phases.node_function), so the phases of
+#: one NLP, and NLPs of one model, share these
+_DERIVATIVES: dict = {}
+_DERIVATIVES_KEPT = 64
+
+
+def _point_derivatives(fn: ca.Function, moving: tuple) -> _PointDerivatives:
+    key = (id(fn), moving)
+    found = _DERIVATIVES.get(key)
+    if found is not None and found.function is fn:
+        return found
+    syms = [ca.SX.sym(f"a{i}", fn.size1_in(i), fn.size2_in(i)) for i in range(fn.n_in())]
+    outs = fn(*syms)
+    outs = outs if isinstance(outs, (list, tuple)) else [outs]
+    y = ca.vertcat(*[ca.vec(o) for o in outs])
+    z = ca.vertcat(*[ca.vec(s) for s, mv in zip(syms, moving) if mv])
+    fixed = [s for s, mv in zip(syms, moving) if not mv]
+    mu = ca.SX.sym("mu", y.shape[0])
+    jac = ca.jacobian(y, z)
+    hess = ca.hessian(ca.dot(mu, y), z)[0]
+    out = _PointDerivatives(fn, y.shape[0], z.shape[0],
+                            ca.Function("point_jac", [z, *fixed], [jac]),
+                            ca.Function("point_hess", [z, *fixed, mu], [hess]),
+                            jac.sparsity(), hess.sparsity())
+    if len(_DERIVATIVES) >= _DERIVATIVES_KEPT:
+        _DERIVATIVES.pop(next(iter(_DERIVATIVES)))
+    _DERIVATIVES[key] = out
+    return out
+
+
 class _Lifted:
     """One call's point function split into the inputs that depend on w (``moving``)
     and those that do not, with its SX Jacobian and weighted-Hessian functions."""
 
     def __init__(self, call: PointCall, w):
-        fn = call.function
         self.call = call
         self.moving = [ca.depends_on(a, w) for a in call.inputs]
-        syms = [ca.SX.sym(f"a{i}", fn.size1_in(i), fn.size2_in(i)) for i in range(fn.n_in())]
-        outs = fn(*syms)
-        outs = outs if isinstance(outs, (list, tuple)) else [outs]
-        y = ca.vertcat(*[ca.vec(o) for o in outs])
-        z = ca.vertcat(*[ca.vec(s) for s, mv in zip(syms, self.moving) if mv])
-        fixed = [s for s, mv in zip(syms, self.moving) if not mv]
-        self.n_out = y.shape[0]
-        self.n_z = z.shape[0]
-        mu = ca.SX.sym("mu", self.n_out)
-        jac = ca.jacobian(y, z)
-        hess = ca.hessian(ca.dot(mu, y), z)[0]
-        self.jac = ca.Function("point_jac", [z, *fixed], [jac]).map(call.n)
-        self.hess = ca.Function("point_hess", [z, *fixed, mu], [hess]).map(call.n)
-        self.jac_block = jac.sparsity()
-        self.hess_block = hess.sparsity()
+        point = _point_derivatives(call.function, tuple(self.moving))
+        self.n_out, self.n_z = point.n_out, point.n_z
+        self.jac = point.jac.map(call.n)
+        self.hess = point.hess.map(call.n)
+        self.jac_block = point.jac_block
+        self.hess_block = point.hess_block
 
     def stacked_moving(self):
         """The moving inputs, one column per point (n_z x n)."""

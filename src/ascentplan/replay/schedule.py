@@ -7,6 +7,7 @@ controls may kink.
 
 from __future__ import annotations
 
+import bisect
 import math
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -404,13 +405,26 @@ class _Constant:
 class _Interp:
     """Linear interpolation on node times measured from ``offset``, held outside them."""
 
-    __slots__ = ("offset", "times", "values")
+    __slots__ = ("offset", "times", "values", "_t", "_v")
 
     def __init__(self, offset, times, values):
         self.offset, self.times, self.values = float(offset), times, values
+        self._t = [float(v) for v in np.ravel(times)]
+        self._v = [float(v) for v in np.ravel(values)]
 
     def __call__(self, t, x=None):
-        return np.interp(t - self.offset, self.times, self.values)
+        if not isinstance(t, float):
+            return np.interp(t - self.offset, self.times, self.values)
+        # one time, as the integrator asks: numpy's formula on Python floats, several
+        # times faster than np.interp on a scalar
+        s, ts, vs = t - self.offset, self._t, self._v
+        if s <= ts[0]:
+            return vs[0]
+        if s >= ts[-1]:
+            return vs[-1]
+        i = bisect.bisect_right(ts, s)
+        slope = (vs[i] - vs[i - 1]) / (ts[i] - ts[i - 1])
+        return slope * (s - ts[i - 1]) + vs[i - 1]
 
 
 class _AirPath:
