@@ -326,9 +326,11 @@ def _exchange_section(data):
 def _three_dimensional_section(data):
     lines = ["## Three-dimensional transfer-orbit example against mesh size", "",
              f"Regenerate: `{data['command']}`", ""] + _machine_lines(data)
-    lines += ["One cold `solve()` per point in a fresh interpreter (imports excluded), no mesh "
-              "refinement, on problems/medium_launcher_transfer.yaml; IPOPT's counters summed "
-              "over the solves of the point (a failed first try and its fallback included; "
+    lines += ["Cold `solve()` in fresh interpreters (imports excluded), no mesh refinement, on "
+              "problems/medium_launcher_transfer.yaml; wall and CPU times are medians over "
+              f"{data.get('repetitions', 1)} fresh process(es) per point; IPOPT's counters, of "
+              "the median run, summed over its solves (a failed first try and its fallback "
+              "included; "
               "above 40 nodes per phase the solve on 40 that starts the fine mesh included; "
               "variables and build time are the final NLP's).",
               ""]
