@@ -15,6 +15,7 @@ from pathlib import Path
 from ascentplan import __version__
 from ascentplan.cautions import CAUTION
 from ascentplan.output.atomic import write_text
+from ascentplan.output.figure_list import order_figures
 from ascentplan.output.report import details, timeline, verdict
 from ascentplan.output.report.markup import STYLE, caution_box, esc, section, words
 from ascentplan.output.report.problem import problem_section
@@ -31,46 +32,8 @@ _KNOWN_KEYS = {"problem", "dynamics", "status", "message", "objective", "burnout
                "infeasibility", "inputs", "provenance", "exchange_ratios", "target_miss",
                "control_smoothing", "timeline", "mass_accounting"}
 
-#: PNG file stems in the order the report shows them (overview first) when the plots
-#: module does not publish its own order; others follow
-_PLOT_ORDER = ("overview", "split_map", "altitude", "speed", "dynamic_pressure",
-               "axial_acceleration", "q_alpha", "throttle", "pitch", "mass")
-
-
-def _figure_order() -> tuple[str, ...]:
-    """File stems in the order of the plots module's ``FIGURES`` when it has one (one
-    order for the solve and for a re-rendered report), else :data:`_PLOT_ORDER`."""
-    try:
-        # the list of figures, not the drawing code: no matplotlib import for a report
-        from ascentplan.output import figure_list
-    except ImportError:
-        return _PLOT_ORDER
-    figures = getattr(figure_list, "FIGURES", None)
-    if not figures:
-        return _PLOT_ORDER
-    stems = []
-    for figure in figures:
-        stem = figure if isinstance(figure, str) else (
-            getattr(figure, "stem", None) or getattr(figure, "name", None))
-        if isinstance(stem, str):
-            stems.append(stem[:-4] if stem.endswith(".png") else stem)
-    return tuple(stems) or _PLOT_ORDER
-
-
-def _sorted_plots(paths) -> list[Path]:
-    order = _figure_order()
-
-    def key(path: Path) -> tuple:
-        stem = path.stem
-        # the longest name that ends the stem: "q_alpha" is not read as "alpha"
-        matches = [(len(name), i) for i, name in enumerate(order) if stem.endswith(name)]
-        return (max(matches)[1], stem) if matches else (len(order), stem)
-
-    return sorted((Path(p) for p in paths), key=key)
-
-
 def _folder_plots(folder: Path) -> list[Path]:
-    return _sorted_plots(p for p in folder.glob("*.png") if p.is_file())
+    return order_figures(p for p in folder.glob("*.png") if p.is_file())
 
 
 def _plots_section(plots: list[Path]) -> str:
@@ -186,7 +149,7 @@ def write_report(result_or_summary, out_dir, *, plots=None) -> Path:
         if not plots and result is not None:
             from ascentplan.output.plots import plot_result
 
-            plots = _sorted_plots(plot_result(result, out))
+            plots = order_figures(plot_result(result, out))
     path = out / REPORT_NAME
     write_text(path, render_html(summary, plots))
     return path
