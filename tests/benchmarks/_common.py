@@ -96,6 +96,28 @@ def run_point(script: str, args: list[str], timeout: float = 900.0) -> dict:
     return {"error": f"exit code {proc.returncode}: " + " | ".join(tail)}
 
 
+def count_ipopt() -> dict:
+    """A dict that IPOPT's own wall-time counters (``t_wall_nlp_*``, ``t_wall_total``),
+    summed over every solve from now on, and the last NLP's size (``variables``) and build
+    time (``build_s``) are written into (wraps ``AscentNLP.solve`` in this process)."""
+    from ascentplan.optimisation import nlp as nlp_module
+
+    counters: dict = {}
+    own_solve = nlp_module.AscentNLP.solve
+
+    def counted(self, *args, **kwargs):
+        out = own_solve(self, *args, **kwargs)
+        for key, value in self.solver.stats().items():
+            if key.startswith("t_wall_nlp") or key == "t_wall_total":
+                counters[key] = counters.get(key, 0.0) + float(value)
+        counters["variables"] = int(self.w.shape[0])
+        counters["build_s"] = float(self.build_time)
+        return out
+
+    nlp_module.AscentNLP.solve = counted
+    return counters
+
+
 def median(values):
     values = sorted(v for v in values if v is not None and not math.isnan(v))
     if not values:

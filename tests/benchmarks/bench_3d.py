@@ -15,6 +15,7 @@ import time
 
 import numpy as np
 from _common import (
+    count_ipopt,
     emit_point,
     finish,
     load_average,
@@ -34,24 +35,11 @@ def _point(nodes: int) -> None:
     from dataclasses import replace
 
     from ascentplan import load_problem, solve
-    from ascentplan.optimisation import nlp as nlp_module
 
     problem = load_problem(problem_path(PROBLEM))
     problem = replace(problem, mesh=replace(problem.mesh, nodes_per_phase=nodes,
                                             max_refinements=0))
-    counters = {}
-    own_solve = nlp_module.AscentNLP.solve
-
-    def counted(self, *args, **kwargs):
-        out = own_solve(self, *args, **kwargs)
-        for key, value in self.solver.stats().items():
-            if key.startswith("t_wall_nlp") or key == "t_wall_total":
-                counters[key] = counters.get(key, 0.0) + float(value)
-        counters["variables"] = int(self.w.shape[0])
-        counters["build_s"] = float(self.build_time)
-        return out
-
-    nlp_module.AscentNLP.solve = counted
+    counters = count_ipopt()
     cpu, wall = time.process_time(), time.perf_counter()
     result = solve(problem)
     emit_point({"nodes": nodes, "wall_time_s": time.perf_counter() - wall,

@@ -13,7 +13,16 @@ from __future__ import annotations
 import sys
 import time
 
-from _common import emit_point, finish, load_average, machine_info, median, problem_path, run_point
+from _common import (
+    count_ipopt,
+    emit_point,
+    finish,
+    load_average,
+    machine_info,
+    median,
+    problem_path,
+    run_point,
+)
 
 PROBLEM = "booster_launcher"
 GOAL_SECONDS = 1.5
@@ -37,23 +46,10 @@ def _problem(variant: str):
 
 def _point(variant: str) -> None:
     from ascentplan import solve
-    from ascentplan.optimisation import nlp as nlp_module
     from ascentplan.problem.plan import phase_plan
 
     problem = _problem(variant)
-    counters = {}
-    own_solve = nlp_module.AscentNLP.solve
-
-    def counted(self, *args, **kwargs):
-        out = own_solve(self, *args, **kwargs)
-        for key, value in self.solver.stats().items():
-            if key.startswith("t_wall_nlp") or key == "t_wall_total":
-                counters[key] = counters.get(key, 0.0) + float(value)
-        counters["variables"] = int(self.w.shape[0])
-        counters["build_s"] = float(self.build_time)
-        return out
-
-    nlp_module.AscentNLP.solve = counted
+    counters = count_ipopt()
     cpu, wall = time.process_time(), time.perf_counter()
     result = solve(problem)
     emit_point({"variant": variant, "phases": len(phase_plan(problem)),
