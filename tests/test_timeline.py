@@ -264,3 +264,25 @@ def test_a_flight_from_orbit_starts_in_orbit_and_coasts_between_its_burns():
         pytest.approx(second, rel=1e-9))
     assert cutoff["replay_propellant_remaining_kg"] == pytest.approx(
         cutoff["propellant_remaining_kg"], abs=1e-3)
+
+
+def test_plotted_node_acceleration_in_a_booster_phase_is_the_replay_s():
+    # the optimiser's node markers are computed with the phase's engines: the boosters
+    # burning beside the core add their thrust (compared with the independent replay at
+    # the same instant, common practice for a plot of two computations of one flight)
+    from pathlib import Path
+
+    from ascentplan import load_problem, solve
+    from ascentplan.output.figure_list import result_nodes
+    from ascentplan.output.plots import _node_quantities
+
+    problem = load_problem(Path(__file__).resolve().parents[1] / "problems"
+                           / "booster_launcher.yaml")
+    result = solve(problem)
+    nodes = _node_quantities(result.solved_problem, result_nodes(result))
+    j = 1  # the ground-lit boosters beside the core
+    assert result.solved_problem.vehicle.boosters and j < len(nodes)
+    k = len(nodes[j]["time"]) // 2
+    t = float(nodes[j]["time"][k])
+    replay = result.trajectory.quantities_at(t, phase=j)["axial_acceleration"]
+    assert nodes[j]["axial_acceleration"][k] == pytest.approx(replay, rel=2e-3)

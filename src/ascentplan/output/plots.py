@@ -18,7 +18,12 @@ import numpy as np
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 
-from ascentplan.models.dynamics import dynamics_kind, flight_model, flight_quantities, propulsion
+from ascentplan.models.dynamics import (
+    dynamics_kind,
+    flight_model,
+    flight_quantities,
+    phase_propulsion,
+)
 from ascentplan.output.canvases import Canvases, OverviewCanvas, PanelCanvas
 from ascentplan.output.figure_list import (
     FIGURES,
@@ -141,7 +146,8 @@ def _node_quantities(problem: Problem, nodes) -> list[dict]:
                 values["pitch"] = np.degrees(controls[model.kind.control_index("pitch")])
         if len(entry) > 2 and entry[2] is not None and j < len(phases):
             states = np.atleast_2d(np.asarray(entry[2], dtype=float))
-            prop = propulsion(problem.vehicle.stages[phases[j].stage], powered)
+            # the phase's engines as flown: the stage and any boosters beside it
+            prop = phase_propulsion(problem.vehicle, phases[j])
             f = flight_quantities(states, controls, model, prop)
             hidden = set() if powered else _attitude_quantities(states, controls, model, prop)
             values.update({quantity: _in_limit_unit(quantity, f[quantity])

@@ -56,11 +56,6 @@ class Phase:
     def powered(self) -> bool:
         return self.kind in ("rise", "burn")
 
-    @property
-    def timed_by_boosters(self) -> bool:
-        """Whether the phase ends at a booster burnout (its time follows the boosters)."""
-        return bool(self.burnouts)
-
 
 def _booster_segments(vehicle, i: int) -> list[tuple[tuple[int, ...], tuple[int, ...]]]:
     """(groups burning, groups burning out at the end) of each booster segment of stage i,
