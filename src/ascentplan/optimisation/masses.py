@@ -16,6 +16,7 @@ import casadi as ca
 
 from ascentplan.problem.model import Problem, dry_mass_from_ratio, stack_masses, thrust_from_ratio
 from ascentplan.problem.objectives import OBJECTIVE_SPECS
+from ascentplan.problem.stack import booster_burn_time, group_thrust
 
 #: bounds of the one factor on all propellant masses of a proportional split
 _SPLIT_SCALE = (0.05, 20.0)
@@ -131,16 +132,16 @@ def unscaled_drag(problem: Problem) -> Problem:
     return replace(problem, aerodynamics=replace(problem.aerodynamics, drag_scale=1.0))
 
 
-def booster_burn_time(problem: Problem, params, masses: StackMasses):
+def group_burn_times(problem: Problem, params, masses: StackMasses):
     """``burn_time(group)`` of the groups from the NLP's parameters and booster
     propellant [s] (symbols)."""
     index = {id(g): k for k, g in enumerate(problem.vehicle.boosters)}
 
     def burn_time(group):
         k = index[id(group)]
-        flow = (masses.booster_setting[k] * params.entries("booster_thrust")[k]
-                / params.entries("booster_exhaust_speed")[k])
-        return masses.booster_propellant[k] / flow
+        return booster_burn_time(masses.booster_propellant[k], masses.booster_setting[k],
+                                 params.entries("booster_thrust")[k],
+                                 params.entries("booster_exhaust_speed")[k])
     return burn_time
 
 
@@ -190,7 +191,7 @@ def engine_inputs(problem: Problem, params, masses: StackMasses, phase):
     thrust, flow, area = 0.0, 0.0, 0.0
     for k in phase.boosters:
         g = problem.vehicle.boosters[k]
-        f = g.count * masses.booster_setting[k] * params.entries("booster_thrust")[k]
+        f = group_thrust(g.count, masses.booster_setting[k], params.entries("booster_thrust")[k])
         thrust = thrust + f
         flow = flow + f / params.entries("booster_exhaust_speed")[k]
         area = area + g.count * params.entries("booster_exit_area")[k]

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ascentplan.optimisation.masses import StackMasses, booster_burn_time
+from ascentplan.optimisation.masses import StackMasses, group_burn_times
 from ascentplan.problem.plan import booster_phase_duration, phase_plan
 
 __all__ = ["add_event_rows", "flux_after_fairing", "mass_after", "stack_guess",
@@ -57,7 +57,7 @@ def add_event_rows(nlp, j: int, masses: StackMasses, fairing_flux=None) -> None:
     sym = nlp.phase_vars[j]
     if ph.burnouts:
         duration = booster_phase_duration(problem, nlp.phases, j,
-                                          booster_burn_time(problem, nlp.parameters, masses))
+                                          group_burn_times(problem, nlp.parameters, masses))
         nlp.rows.add(f"booster_burnout{j}",
                      (sym.duration * nlp.duration_scale[j] - duration) / _TIME_SCALE, 0.0, 0.0)
     fairing = problem.vehicle.fairing

@@ -12,6 +12,7 @@ from ascentplan.models.dynamics import dynamics_kind
 from ascentplan.problem.limits import LIMITS
 from ascentplan.problem.loader import liftoff_thrust, site_gravity
 from ascentplan.problem.model import OBJECTIVES, Problem, Vehicle
+from ascentplan.staging.parallel import stack_delta_v
 
 __all__ = ["ideal_delta_v", "vehicle_summary"]
 
@@ -19,7 +20,9 @@ def ideal_delta_v(vehicle: Vehicle) -> list[float]:
     """Ideal velocity increment of each stage by the rocket equation.
 
     dv_i = c_i ln(m_ignition,i / m_burnout,i) (Tsiolkovsky 1903; e.g. H. D. Curtis,
-    *Orbital Mechanics for Engineering Students*, chapter "Rocket vehicle dynamics").
+    *Orbital Mechanics for Engineering Students*, chapter "Rocket vehicle dynamics"),
+    phase by phase with the mass-flow-weighted exhaust speed where boosters burn beside
+    the stage (:func:`ascentplan.staging.parallel.stack_delta_v`, which it is).
 
     Parameters
     ----------
@@ -30,13 +33,7 @@ def ideal_delta_v(vehicle: Vehicle) -> list[float]:
     list of float
         One increment per stage, first stage first [m s^-1].
     """
-    if vehicle.boosters or vehicle.fairing is not None:
-        # parallel staging: phase by phase, the mass-flow-weighted exhaust speed
-        from ascentplan.staging.parallel import stack_delta_v
-
-        return stack_delta_v(vehicle)
-    return [s.exhaust_speed * math.log(vehicle.ignition_mass(i) / vehicle.burnout_mass(i))
-            for i, s in enumerate(vehicle.stages)]
+    return stack_delta_v(vehicle)
 
 
 def _model_name(model, registry: dict) -> str:

@@ -13,7 +13,22 @@ from dataclasses import dataclass
 
 from ascentplan.constants import G0
 
-__all__ = ["BoosterGroup", "Fairing", "booster_burnout_times"]
+__all__ = ["BoosterGroup", "Fairing", "booster_burn_time", "booster_burnout_times",
+           "group_thrust"]
+
+
+# the group rules, written once: plain arithmetic, so they take floats and CasADi symbols
+# alike (the NLP calls them on its parameters and decision variables)
+
+
+def group_thrust(count, setting, thrust_vacuum):
+    """Vacuum thrust of ``count`` boosters at throttle ``setting`` [N]."""
+    return count * setting * thrust_vacuum
+
+
+def booster_burn_time(propellant_mass, setting, thrust_vacuum, exhaust_speed):
+    """Burn time of one booster from ignition to depletion at ``setting`` [s]."""
+    return propellant_mass * exhaust_speed / (setting * thrust_vacuum)
 
 
 @dataclass(frozen=True)
@@ -88,7 +103,7 @@ class BoosterGroup:
     @property
     def group_thrust(self) -> float:
         """Vacuum thrust of the group at its setting [N]."""
-        return self.count * self.throttle * self.thrust_vacuum
+        return group_thrust(self.count, self.throttle, self.thrust_vacuum)
 
     @property
     def group_mass_flow(self) -> float:
@@ -98,7 +113,8 @@ class BoosterGroup:
     @property
     def burn_time(self) -> float:
         """Burn time from ignition to depletion at its setting [s]."""
-        return self.count * self.propellant_mass / self.group_mass_flow
+        return booster_burn_time(self.propellant_mass, self.throttle, self.thrust_vacuum,
+                                 self.exhaust_speed)
 
 
 def booster_burnout_times(groups, stage: int, burn_time=None) -> dict[str, object]:
