@@ -94,6 +94,9 @@ def test_restart_needs_a_coast_range_that_makes_sense():
     doc["vehicle"]["stages"][0]["restarts"] = 1.5
     with pytest.raises(ProblemError, match="restarts: expected a whole number"):
         problem_from_dict(doc)
+    doc["vehicle"]["stages"][0]["restarts"] = 10**9
+    with pytest.raises(ProblemError, match="restarts: must be at most 20"):
+        problem_from_dict(doc)
 
 
 def _parallel_doc() -> dict:
@@ -163,6 +166,10 @@ def test_boosters_that_outlast_the_core_are_refused():
     doc = _parallel_doc()
     doc["vehicle"]["stages"][0]["propellant_mass"] = "20 t"
     with pytest.raises(ProblemError, match=r"boosters: the boosters burn for"):
+        problem_from_dict(doc)
+    doc = _parallel_doc()
+    doc["vehicle"]["stages"][0]["boosters"][0]["count"] = 10**9
+    with pytest.raises(ProblemError, match="count: must be at most 100"):
         problem_from_dict(doc)
     doc = _parallel_doc()
     doc["vehicle"]["stages"][0]["boosters"][1]["ignition"] = "after nobody"

@@ -21,6 +21,11 @@ BOOSTER_KEYS = ("name", "count", "propellant_mass", "dry_mass", "thrust_vacuum",
                 "propellant_min", "propellant_max")
 FAIRING_KEYS = ("mass", "jettison_time", "jettison_heat_flux", "during")
 _COAST_KEYS = ("min", "max")
+#: most restarts of one stage: each adds two phases to the NLP (common practice: upper
+#: stages restart a handful of times)
+MAX_RESTARTS = 20
+#: most boosters in one group: beyond any vehicle's, a count this large is a typing error
+MAX_BOOSTERS = 100
 #: a burn time given beside the thrust must agree with it to this fraction
 _AGREEMENT = 0.005
 
@@ -28,6 +33,10 @@ _AGREEMENT = 0.005
 def read_restarts(r: _Reader, raw: dict, path: str) -> dict:
     """``restarts`` (further burns) and the bounds of each coast between burns [s]."""
     restarts = r.integer(raw, "restarts", path, 0, 0)
+    if restarts is not None and restarts > MAX_RESTARTS:
+        r.error(_join(path, "restarts"), f"must be at most {MAX_RESTARTS} (each restart adds a "
+                                         f"coast and a burn to the flight), got {restarts}")
+        restarts = None
     coast = r.section(raw, "coast_between_burns", path, what="{min: ..., max: ...} (durations)")
     cpath = _join(path, "coast_between_burns")
     r.keys(coast, cpath, _COAST_KEYS)
@@ -69,6 +78,10 @@ def _read_group(r: _Reader, g: dict, path: str, i: int, earlier: list) -> dict:
         r.error(_join(path, "name"), f"names another group of this stage too, got "
                                      f"{show(out['name'])}")
     out["count"] = r.integer(g, "count", path, 1, 1)
+    if out["count"] is not None and out["count"] > MAX_BOOSTERS:
+        r.error(_join(path, "count"), f"must be at most {MAX_BOOSTERS} boosters in a group, "
+                                      f"got {out['count']}")
+        out["count"] = None
     out["propellant_mass"] = r.quantity(g, "propellant_mass", path, "kg", required=True, gt=0.0)
     out["dry_mass"] = r.quantity(g, "dry_mass", path, "kg", required=True, gt=0.0)
     has_isp, has_c = g.get("isp_vacuum") is not None, g.get("exhaust_speed") is not None
